@@ -1,0 +1,507 @@
+"""Capacitance of a fixture: Maxwell matrix, terminal capacitance, and its error bar.
+
+:func:`solve` climbs a ladder of discretisations of one graded mesh family (element
+degree 3 then 4 on the base mesh, then uniform refinement, each step a nested space) and
+stops when the estimated relative error of the terminal capacitance is below ``rtol``.
+
+Error estimate. For successive results C_k the difference d_k = C_k - C_(k-1) is
+measured; if the error contracts by a factor q per step, the error of C_k is
+|d_k| q / (1 - q). q is the larger of an assumed bound for that kind of step and the
+ratio |d_k / d_(k-1)| observed on the previous steps, so that a case converging slower
+than assumed is caught. The assumed bounds are deliberately about twice the contraction
+seen on the reference cases (tests/test_reference_field.py checks that the estimate
+bounds the true error on every one of them).
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from collections import OrderedDict
+from collections.abc import Callable
+from dataclasses import dataclass, field, replace
+
+import numpy as np
+import pint
+
+from . import field as fe
+from . import mesh as mm
+from .errors import GeometryError, SolverError
+from .geometry import DIRECT, GROUND, PAIR, Fixture, Geometry, OpenSpace
+from .units import Q_
+
+#: assumed error contraction per step: degree 3 -> 4 on one mesh, and one uniform refinement
+Q_DEGREE = 0.25
+Q_REFINE = 0.125
+#: relative size of the innermost element at a singular point, per unit of rtol
+H_MIN_PER_RTOL = 1e-2
+
+DEFAULT_RTOL = 1e-6
+DEFAULT_TIME_BUDGET = 120.0  # s
+DEFAULT_MAX_DOFS = 3_000_000
+
+
+@dataclass(frozen=True)
+class Rung:
+    """One discretisation on the ladder, and what it gave."""
+
+    level: int
+    degree: int
+    n_dofs: int
+    terminal: complex
+    seconds: float
+    rel_error: float = math.inf
+
+
+@dataclass(frozen=True)
+class PotentialField:
+    """The potential of the terminal drive on a triangulation, for plots and probes.
+
+    ``x, y`` (vertices), ``triangles`` (n, 3), ``u`` (V at each vertex, real part),
+    ``outlines``: for each conductor name, a list of (2, k) polylines of its boundary.
+    Drive: PAIR, high and low at +1/2 V and -1/2 V apart from a common offset (others
+    floating); DIRECT, high at 1 V, every other conductor at 0 V.
+    """
+
+    x: np.ndarray
+    y: np.ndarray
+    triangles: np.ndarray
+    u: np.ndarray
+    axisymmetric: bool
+    outlines: dict
+    shell_start: float | None = None  # region beyond the box is the mapped exterior
+
+    def field_strength(self) -> np.ndarray:
+        """|E| (V/m per volt applied) at every vertex, averaged from the triangles."""
+        x, y, t, u = self.x, self.y, self.triangles, self.u
+        x0, y0 = x[t[:, 0]], y[t[:, 0]]
+        b1x, b1y = x[t[:, 1]] - x0, y[t[:, 1]] - y0
+        b2x, b2y = x[t[:, 2]] - x0, y[t[:, 2]] - y0
+        det = b1x * b2y - b1y * b2x
+        du1, du2 = u[t[:, 1]] - u[t[:, 0]], u[t[:, 2]] - u[t[:, 0]]
+        ex = (du1 * b2y - du2 * b1y) / det
+        ey = (du2 * b1x - du1 * b2x) / det
+        emag = np.hypot(ex, ey)
+        area = np.abs(det) / 2
+        num = np.zeros(x.size)
+        den = np.zeros(x.size)
+        for k in range(3):
+            np.add.at(num, t[:, k], emag * area)
+            np.add.at(den, t[:, k], area)
+        return num / np.maximum(den, 1e-300)
+
+
+@dataclass(frozen=True, eq=False)
+class Solution:
+    """Result of :func:`solve`.
+
+    capacitance: the fixture's terminal capacitance (real part; F, or F/m for planar
+    sections without a length); rel_error: its estimated relative error; matrix: the
+    Maxwell capacitance matrix with rows and columns in the order of ``terminals``
+    (w.r.t. ground where the fixture has one); potential: the terminal drive's field.
+    """
+
+    fixture: Fixture
+    terminals: tuple[str, ...]
+    maxwell: np.ndarray  # SI, energy form (complex where a dielectric is lossy)
+    maxwell_charge: np.ndarray  # SI, charge form
+    terminal: complex  # SI
+    rel_error: float
+    rungs: tuple[Rung, ...]
+    grounded: bool
+    seconds: float
+    field: fe.FieldSolution | None = field(default=None, repr=False)
+
+    @property
+    def unit(self) -> str:
+        per_length = not self.fixture.axisymmetric and self.fixture.length is None
+        return "F/m" if per_length else "F"
+
+    @property
+    def _scale(self) -> float:
+        return self.fixture.length or 1.0
+
+    @property
+    def capacitance(self) -> pint.Quantity:
+        return Q_(self.terminal.real * self._scale, self.unit)
+
+    @property
+    def dissipation_factor(self) -> float:
+        """C''/C' of the terminal capacitance (0 for lossless dielectrics)."""
+        return float(-self.terminal.imag / self.terminal.real)
+
+    @property
+    def matrix(self) -> pint.Quantity:
+        m = self.maxwell * self._scale
+        return Q_(m.real if not np.iscomplexobj(m) or not np.any(m.imag) else m, self.unit)
+
+    @property
+    def n_dofs(self) -> int:
+        return self.rungs[-1].n_dofs
+
+    @property
+    def energy_charge_mismatch(self) -> float:
+        """Largest relative difference between the energy and the charge forms."""
+        scale = np.max(np.abs(self.maxwell))
+        return float(np.max(np.abs(self.maxwell - self.maxwell_charge)) / scale)
+
+    @property
+    def potential(self) -> PotentialField:
+        return potential_field(self)
+
+
+# --------------------------------------------------------------------------- terminals
+
+
+def has_ground(geometry: Geometry) -> bool:
+    """True where some conductor is grounded: an enclosure, a ground plane, or 3-D
+    infinity. A planar section in open space has none (infinity floats)."""
+    b = geometry.boundary
+    return geometry.axisymmetric or not isinstance(b, OpenSpace) or b.ground_plane is not None
+
+
+def terminal_capacitance(
+    C: np.ndarray, names: tuple[str, ...], high: str, low: str, connection: str, grounded: bool
+) -> complex:
+    """Terminal capacitance from a Maxwell matrix (see :class:`~capbench.geometry.Fixture`).
+
+    Notes
+    -----
+    DIRECT: minus the Maxwell coefficient between high and low (with the ground as an
+    extra conductor whose coefficients make every row sum to zero).
+    PAIR: with charges +q, -q on high and low and none elsewhere, C = 1 / (q^T C^-1 q)
+    for unit q; potentials are taken relative to ground, or, without ground, relative to
+    the low conductor.
+    """
+    n = len(names)
+    if GROUND in (high, low) and not grounded:
+        raise GeometryError(
+            "this fixture has no ground (a planar section in open space): infinity floats; "
+            f"choose two of its conductors {list(names)} as terminals",
+            value=GROUND,
+        )
+    idx = {nm: i for i, nm in enumerate(names)}
+    if connection == DIRECT:
+        ext = np.zeros((n + 1, n + 1), dtype=C.dtype)
+        ext[:n, :n] = C
+        ext[:n, n] = -C.sum(axis=1)
+        ext[n, :n] = -C.sum(axis=0)
+        ext[n, n] = C.sum()
+        i = idx.get(high, n)
+        j = idx.get(low, n)
+        return complex(-ext[i, j])
+    if connection != PAIR:
+        raise GeometryError(f"connection = {connection!r}; valid: {PAIR!r}, {DIRECT!r}")
+    if grounded:
+        q = np.zeros(n, dtype=C.dtype)
+        if high in idx:
+            q[idx[high]] += 1
+        if low in idx:
+            q[idx[low]] -= 1
+        return complex(1.0 / (q @ np.linalg.solve(C, q)))
+    if n < 2:
+        raise GeometryError(
+            "a planar section in open space needs two conductors for a "
+            "capacitance (a single one has none per unit length)"
+        )
+    keep = [k for k in range(n) if k != idx[low]]
+    Cr = C[np.ix_(keep, keep)]
+    e = np.zeros(n - 1, dtype=C.dtype)
+    e[keep.index(idx[high])] = 1.0
+    return complex(1.0 / np.linalg.solve(Cr, e)[keep.index(idx[high])])
+
+
+def drive_potentials(
+    C: np.ndarray, names: tuple[str, ...], high: str, low: str, connection: str, grounded: bool
+) -> np.ndarray:
+    """Conductor potentials (V) of the terminal drive with 1 V between high and low."""
+    n = len(names)
+    idx = {nm: i for i, nm in enumerate(names)}
+    if connection == DIRECT:
+        V = np.zeros(n, dtype=C.dtype)
+        if high in idx:
+            V[idx[high]] = 1.0
+        return V
+    q = np.zeros(n, dtype=C.dtype)
+    if high in idx:
+        q[idx[high]] += 1
+    if low in idx:
+        q[idx[low]] -= 1
+    if grounded:
+        V = np.linalg.solve(C, q)
+    else:  # potentials relative to the low conductor
+        keep = [k for k in range(n) if k != idx[low]]
+        V = np.zeros(n, dtype=C.dtype)
+        V[keep] = np.linalg.solve(C[np.ix_(keep, keep)], q[keep])
+    vh = V[idx[high]] if high in idx else 0.0
+    vl = V[idx[low]] if low in idx else 0.0
+    return V / (vh - vl)
+
+
+# --------------------------------------------------------------------------- meshes
+
+
+def _mesh_key(g: Geometry) -> tuple:
+    """What the mesh depends on: the shapes and the boundary, not the permittivities."""
+    return (g.symmetry, g.conductors, tuple((d.name, d.shape) for d in g.dielectrics), g.boundary)
+
+
+class _LRU(OrderedDict):
+    def __init__(self, size: int):
+        super().__init__()
+        self.size = size
+
+    def get_or(self, key, make):
+        if key in self:
+            self.move_to_end(key)
+            return self[key]
+        value = make()
+        self[key] = value
+        while len(self) > self.size:
+            self.popitem(last=False)
+        return value
+
+
+_MESHES = _LRU(32)
+_ASSEMBLIES = _LRU(6)
+
+
+def base_mesh(
+    geometry: Geometry, rtol: float, options: mm.MeshOptions = mm.DEFAULT_OPTIONS
+) -> mm.TriMesh:
+    """Seed, star refinement at the singular points, and shell (level 0 of the ladder)."""
+    key = (_mesh_key(geometry), options, _h_min_class(rtol))
+
+    def make():
+        seed = mm.seed(geometry, options)
+        h_seed = float(np.median(seed.h()))
+        h_min = _h_min_class(rtol) * h_seed
+        star = mm.star_refine(seed, h_min=h_min, sigma=options.sigma)
+        return mm.attach_shell(star, geometry, options)
+
+    return _MESHES.get_or(key, make)
+
+
+def _h_min_class(rtol: float) -> float:
+    """Innermost element size relative to the median seed element, in decades, so that
+    nearby tolerances share one mesh."""
+    return 10.0 ** math.floor(math.log10(max(rtol, 1e-14) * H_MIN_PER_RTOL))
+
+
+def level_mesh(
+    geometry: Geometry, rtol: float, level: int, options: mm.MeshOptions = mm.DEFAULT_OPTIONS
+) -> mm.TriMesh:
+    key = (_mesh_key(geometry), options, _h_min_class(rtol), level)
+    if level == 0:
+        return base_mesh(geometry, rtol, options)
+    return _MESHES.get_or(key, lambda: mm.refined(level_mesh(geometry, rtol, level - 1, options)))
+
+
+def _assembly(
+    geometry: Geometry, rtol: float, level: int, degree: int, options: mm.MeshOptions
+) -> fe.Assembly:
+    key = (_mesh_key(geometry), options, _h_min_class(rtol), level, degree)
+    return _ASSEMBLIES.get_or(
+        key,
+        lambda: fe.assemble(
+            level_mesh(geometry, rtol, level, options), degree, len(geometry.conductors)
+        ),
+    )
+
+
+def eps_by_region(geometry: Geometry) -> dict[int, complex]:
+    out = {mm.MEDIUM_REGION: complex(geometry.medium_eps_r)}
+    for i, d in enumerate(geometry.dielectrics):
+        out[i + 1] = complex(d.eps_r)
+    return out
+
+
+# --------------------------------------------------------------------------- solve
+
+
+LADDER = ((0, 3), (0, 4), (1, 4), (2, 4), (3, 4), (4, 4), (5, 4))
+
+
+def solve(
+    fixture: Fixture,
+    rtol: float = DEFAULT_RTOL,
+    *,
+    time_budget: float = DEFAULT_TIME_BUDGET,
+    max_dofs: int = DEFAULT_MAX_DOFS,
+    options: mm.MeshOptions = mm.DEFAULT_OPTIONS,
+    progress: Callable[[float, str], None] | None = None,
+) -> Solution:
+    """Solve the fixture's field until the terminal capacitance's estimated relative
+    error is below ``rtol``.
+
+    Parameters
+    ----------
+    fixture : Fixture
+    rtol : float
+        Relative accuracy wanted, 1e-2 to 1e-9.
+    time_budget : float
+        Seconds; the ladder stops with :class:`SolverError` before a step that would
+        exceed it.
+    max_dofs : int
+        Degrees of freedom beyond which a step is not taken (memory guard).
+    progress : callable(fraction, message), optional
+
+    Returns
+    -------
+    Solution
+
+    Raises
+    ------
+    SolverError
+        When ``rtol`` cannot be reached within the budgets; the best result so far is
+        attached as ``.partial``.
+    """
+    if not (isinstance(rtol, (int, float)) and 1e-9 <= rtol <= 1e-2):
+        raise SolverError(
+            f"rtol = {rtol!r}; valid: a relative tolerance 1e-9 to 1e-2",
+            value=rtol,
+            valid=(1e-9, 1e-2),
+        )
+    t_start = time.perf_counter()
+    g = fixture.geometry
+    names = g.conductor_names
+    grounded = has_ground(g)
+    eps = eps_by_region(g)
+    rungs: list[Rung] = []
+    last_fs = None
+    for step, (level, degree) in enumerate(LADDER):
+        if rungs:
+            est_dofs, est_time = _predict(rungs, level, degree)
+            elapsed = time.perf_counter() - t_start
+            if est_dofs > max_dofs or elapsed + est_time > time_budget:
+                why = (
+                    f"the next step needs about {est_dofs:,} unknowns (limit {max_dofs:,})"
+                    if est_dofs > max_dofs
+                    else f"the next step would take about {est_time:.0f} s beyond the "
+                    f"{time_budget:.0f} s budget"
+                )
+                partial = _finish(fixture, names, grounded, rungs, last_fs, t_start)
+                raise SolverError(
+                    f"could not reach rtol = {rtol:.1e}: {why}; reached "
+                    f"{rungs[-1].rel_error:.1e}. Loosen rtol, or raise time_budget / "
+                    "max_dofs",
+                    rtol=rtol,
+                    reached=rungs[-1].rel_error,
+                    partial=partial,
+                )
+        if progress:
+            progress(min(0.95, step / 4), f"solving level {level}, degree {degree}")
+        t0 = time.perf_counter()
+        asm = _assembly(g, rtol, level, degree, options)
+        fs = fe.solve_unit_drives(asm, eps)
+        Ct = terminal_capacitance(
+            fs.maxwell_energy, names, fixture.high, fixture.low, fixture.connection, grounded
+        )
+        rungs.append(Rung(level, degree, asm.n_dofs, Ct, time.perf_counter() - t0))
+        rungs[-1] = replace(rungs[-1], rel_error=_estimate(rungs))
+        last_fs = fs
+        if rungs[-1].rel_error <= rtol:
+            break
+    else:
+        partial = _finish(fixture, names, grounded, rungs, last_fs, t_start)
+        raise SolverError(
+            f"could not reach rtol = {rtol:.1e} on the finest mesh; reached "
+            f"{rungs[-1].rel_error:.1e}",
+            rtol=rtol,
+            partial=partial,
+        )
+    if progress:
+        progress(1.0, "done")
+    return _finish(fixture, names, grounded, rungs, last_fs, t_start)
+
+
+def _finish(fixture, names, grounded, rungs, fs, t_start) -> Solution:
+    return Solution(
+        fixture=fixture,
+        terminals=names,
+        maxwell=_clean(fs.maxwell_energy),
+        maxwell_charge=_clean(fs.maxwell_charge),
+        terminal=rungs[-1].terminal,
+        rel_error=rungs[-1].rel_error,
+        rungs=tuple(rungs),
+        grounded=grounded,
+        seconds=time.perf_counter() - t_start,
+        field=fs,
+    )
+
+
+def _clean(C: np.ndarray) -> np.ndarray:
+    C = 0.5 * (C + C.T)
+    if np.iscomplexobj(C) and not np.any(C.imag):
+        C = C.real
+    return C
+
+
+def _estimate(rungs: list[Rung]) -> float:
+    """Estimated relative error of the last rung (see the module notes)."""
+    if len(rungs) < 2:
+        return math.inf
+    c = [r.terminal for r in rungs]
+    d = abs(c[-1] - c[-2])
+    same_mesh = rungs[-1].level == rungs[-2].level
+    q = Q_DEGREE if same_mesh else Q_REFINE
+    if len(rungs) >= 3:
+        d_prev = abs(c[-2] - c[-3])
+        if d_prev > 0:
+            q = max(q, d / d_prev)
+    if q >= 0.9:
+        return math.inf if d > 0 else 0.0
+    floor = 1e-13 * math.sqrt(rungs[-1].n_dofs)  # rounding in the solve
+    return d * q / (1 - q) / abs(c[-1]) + floor
+
+
+def _predict(rungs: list[Rung], level: int, degree: int) -> tuple[int, float]:
+    last = rungs[-1]
+    growth = (
+        4.0 ** (level - last.level) * ((degree + 1) * degree) / ((last.degree + 1) * last.degree)
+    )
+    dofs = int(last.n_dofs * growth)
+    return dofs, last.seconds * growth**1.2
+
+
+# --------------------------------------------------------------------------- fields
+
+
+def potential_field(sol: Solution) -> PotentialField:
+    """The terminal drive's potential on the solved mesh, as vertices and triangles."""
+    fs = sol.field
+    if fs is None:
+        raise SolverError("this solution carries no field (it was loaded from a file)")
+    fx = sol.fixture
+    V = drive_potentials(
+        fs.maxwell_energy, sol.terminals, fx.high, fx.low, fx.connection, sol.grounded
+    )
+    u = fs.potentials @ V
+    asm = fs.assembly
+    mesh = asm.mesh
+    inside = mesh.region != mm.SHELL_REGION
+    tri = asm.skmesh.t[:, inside].T
+    nv = asm.skmesh.p.shape[1]
+    uv = np.real(u[asm.dofs.nodal_dofs[0, :nv]])
+    outlines = _outlines(fx.geometry)
+    return PotentialField(
+        x=asm.skmesh.p[0].copy(),
+        y=asm.skmesh.p[1].copy(),
+        triangles=tri,
+        u=uv,
+        axisymmetric=fx.axisymmetric,
+        outlines=outlines,
+    )
+
+
+def _outlines(g: Geometry) -> dict:
+    from .geometry import shape_edges
+
+    out = {}
+    for part in (*g.conductors, *g.dielectrics):
+        lines = []
+        for e in shape_edges(part.shape, g.axisymmetric):
+            n = 2 if e.__class__.__name__ == "Line" else 33
+            lines.append(e.point(np.linspace(0, 1, n)))
+        out[part.name] = lines
+    return out

@@ -1,0 +1,406 @@
+"""Finite-element assembly and solve of the electrostatic field (scikit-fem).
+
+The potential u satisfies div(eps grad u) = 0 between the conductors, u = V_k on
+conductor k, u = 0 on grounded boundaries, and the natural condition on the symmetry
+axis. The weak form is
+
+    a(u, v) = eps0 * sum_regions eps_r * integral grad u . grad v * w dA,
+
+with w = 2 pi r (axisymmetric, so that a(u, u) is twice the field energy per volt
+squared) or w = 1 (planar, per unit length). In the far-field shell the integrand is
+mapped (see :class:`capbench.mesh.Shell`): grad u . A grad v with
+A = w(x') |det J| J^-1 J^-T, J = dx'/dx.
+
+The Maxwell capacitance matrix follows from one solve per conductor (one factorisation,
+several right-hand sides): C_jk = a(u_j, u_k) (energy form) and C_jk = charge on
+conductor j from solution k, the sum of the residual a(u_k, phi_i) over the basis
+functions phi_i of conductor j (charge form). The two agree to the solver's precision.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass, field
+
+import numpy as np
+import scipy.sparse as sp
+import scipy.sparse.linalg as spla
+from skfem import Basis, ElementTriP1, ElementTriP2, ElementTriP3, ElementTriP4, MeshTri1, MeshTri2
+from skfem.assembly import Dofs
+from skfem.quadrature import get_quadrature
+from skfem.refdom import RefTri
+
+from .errors import SolverError
+from .mesh import (
+    GROUND_TAG,
+    INFINITY_TAG,
+    MEDIUM_REGION,
+    SHELL_REGION,
+    Shell,
+    TriMesh,
+    _edge_keys,
+)
+from .units import EPS0
+
+_ELEMENTS = {1: ElementTriP1, 2: ElementTriP2, 3: ElementTriP3, 4: ElementTriP4}
+
+
+def shell_tensor(x: np.ndarray, shell: Shell, axisymmetric: bool) -> np.ndarray:
+    """The mapped coefficient A (2, 2, ...) of the shell at points x (2, ...)."""
+    dx, dy = x[0] - shell.cx, x[1] - shell.cy
+    rx, ry = np.abs(dx) / shell.hx, np.abs(dy) / shell.hy
+    side = rx >= ry
+    rho = np.where(side, rx, ry)
+    gx = np.where(side, np.sign(dx) / shell.hx, 0.0)
+    gy = np.where(side, 0.0, np.sign(dy) / shell.hy)
+    lam = shell.ratio
+    g = (lam - 1.0) / (lam - rho)
+    gp = (lam - 1.0) / (lam - rho) ** 2
+    f = g / rho
+    fp = gp / rho - g / rho**2
+    j00 = f + fp * dx * gx
+    j01 = fp * dx * gy
+    j10 = fp * dy * gx
+    j11 = f + fp * dy * gy
+    det = j00 * j11 - j01 * j10
+    # J^-1 = [[j11, -j01], [-j10, j00]] / det; A = |det| J^-1 J^-T
+    i00, i01, i10, i11 = j11 / det, -j01 / det, -j10 / det, j00 / det
+    scale = np.abs(det)
+    if axisymmetric:
+        scale = scale * 2.0 * math.pi * (shell.cx + dx * f)
+    a00 = (i00 * i00 + i01 * i01) * scale
+    a01 = (i00 * i10 + i01 * i11) * scale
+    a11 = (i10 * i10 + i11 * i11) * scale
+    return np.array([[a00, a01], [a01, a11]])
+
+
+class _Reference:
+    """Basis gradients of one element type on the reference triangle, and the products
+    that turn per-element geometry into element matrices with one matrix multiply."""
+
+    def __init__(self, degree: int):
+        self.elem = _ELEMENTS[degree]()
+        self.degree = degree
+        # exact for the (linearly weighted) stiffness of straight-sided elements
+        X, W = get_quadrature(RefTri, 2 * degree - 1)
+        lam = np.vstack((1 - X[0] - X[1], X[0], X[1]))
+        dphi = self.gradients(X)  # (nb, 2, nq)
+        nb = dphi.shape[0]
+        self.nb = nb
+        # S[v, a, b, i, j] = sum_q W_q lam_v dphi_i,a dphi_j,b
+        self.S = np.einsum("q,vq,iaq,jbq->vabij", W, lam, dphi, dphi).reshape(12, nb * nb)
+        self._quad: dict[int, tuple] = {}
+
+    def gradients(self, X: np.ndarray) -> np.ndarray:
+        return np.array([self.elem.lbasis(X, i)[1] for i in range(_nb(self.elem))])
+
+    def quadrature(self, order: int):
+        """Points, weights and D[q, a, b, i, j] = dphi_i,a dphi_j,b for a rule of ``order``."""
+        if order not in self._quad:
+            X, W = get_quadrature(RefTri, order)
+            dphi = self.gradients(X)
+            D = np.einsum("iaq,jbq->qabij", dphi, dphi).reshape(X.shape[1] * 4, -1)
+            self._quad[order] = (X, W, D)
+        return self._quad[order]
+
+
+def _nb(elem) -> int:
+    return 3 * elem.nodal_dofs + 3 * elem.facet_dofs + elem.interior_dofs
+
+
+_REFERENCES: dict[int, _Reference] = {}
+
+
+def _reference(degree: int) -> _Reference:
+    if degree not in _REFERENCES:
+        _REFERENCES[degree] = _Reference(degree)
+    return _REFERENCES[degree]
+
+
+def _affine(p: np.ndarray, t: np.ndarray):
+    """Jacobian B = [p1 - p0, p2 - p0], its determinant and inverse, per element."""
+    p0 = p[:, t[0]]
+    B = np.stack((p[:, t[1]] - p0, p[:, t[2]] - p0), axis=1)  # (2, 2, nel): B[:, k] column
+    det = B[0, 0] * B[1, 1] - B[0, 1] * B[1, 0]
+    Binv = np.array([[B[1, 1], -B[0, 1]], [-B[1, 0], B[0, 0]]]) / det
+    return p0, B, det, Binv
+
+
+def _straight_matrices(ref: _Reference, p, t, axisymmetric: bool) -> np.ndarray:
+    """Element stiffness matrices of straight-sided elements, weight 2 pi r or 1."""
+    _, _, det, Binv = _affine(p, t)
+    G = np.einsum("akn,bkn->abn", Binv, Binv) * np.abs(det)  # B^-1 B^-T |det B|
+    if axisymmetric:
+        wv = 2.0 * math.pi * p[0][t]  # (3, nel): weight at the vertices
+    else:
+        wv = np.ones((3, t.shape[1]))
+    c = np.einsum("vn,abn->nvab", wv, G).reshape(t.shape[1], 12)
+    return (c @ ref.S).reshape(-1, ref.nb, ref.nb)
+
+
+def _quadrature_matrices(ref: _Reference, order: int, metric) -> np.ndarray:
+    """Element matrices from M[n, q, a, b] = w_q * (metric at q), by one matrix multiply."""
+    X, W, D = ref.quadrature(order)
+    M = metric(X) * W[None, :, None, None]
+    n = M.shape[0]
+    return (M.reshape(n, -1) @ D).reshape(n, ref.nb, ref.nb)
+
+
+def _shell_matrices(ref: _Reference, p, t, shell: Shell, axisymmetric: bool, order: int):
+    p0, B, det, Binv = _affine(p, t)
+
+    def metric(X):
+        x = p0[:, :, None] + np.einsum("akn,kq->anq", B, X)  # (2, nel, nq)
+        A = shell_tensor(x, shell, axisymmetric)  # (2, 2, nel, nq)
+        M = np.einsum("kan,abnq,cbn->nqkc", Binv, A, Binv)
+        return M * np.abs(det)[:, None, None, None]
+
+    return _quadrature_matrices(ref, order, metric)
+
+
+def _curved_matrices(ref: _Reference, geo: np.ndarray, axisymmetric: bool, order: int):
+    """Element matrices of isoparametric elements; geo (2, 6, nel) holds the six nodes
+    of the quadratic geometry (vertices, then edge midpoints in scikit-fem's order)."""
+    geo_el = ElementTriP2()
+
+    def metric(X):
+        N = np.array([geo_el.lbasis(X, i)[0] for i in range(6)])  # (6, nq)
+        dN = np.array([geo_el.lbasis(X, i)[1] for i in range(6)])  # (6, 2, nq)
+        J = np.einsum("akn,kbq->abnq", geo, dN)  # J[a, b] = dx_a / dX_b
+        det = J[0, 0] * J[1, 1] - J[0, 1] * J[1, 0]
+        Ji = np.array([[J[1, 1], -J[0, 1]], [-J[1, 0], J[0, 0]]]) / det
+        M = np.einsum("kanq,lanq->nqkl", Ji, Ji) * np.abs(det)[..., None, None]
+        if axisymmetric:
+            r = np.einsum("kn,kq->nq", geo[0], N)
+            M = M * (2.0 * math.pi * r)[..., None, None]
+        return M
+
+    return _quadrature_matrices(ref, order, metric)
+
+
+@dataclass(eq=False)
+class Assembly:
+    """Per-region stiffness matrices and the degree-of-freedom sets of one mesh and degree.
+
+    The matrices exclude the permittivity, so a change of permittivity costs a sparse
+    sum, not a new assembly.
+    """
+
+    mesh: TriMesh
+    degree: int
+    skmesh: MeshTri1  # topology (vertices, sorted triangles, facets)
+    dofs: Dofs
+    parts: dict  # region code -> csr matrix (without permittivity)
+    conductor_dofs: list  # conductor index -> dof array
+    ground_dofs: np.ndarray
+    infinity_dofs: np.ndarray
+    floating_infinity: bool
+    curved_elements: np.ndarray
+    seconds: float = 0.0
+
+    @property
+    def n_dofs(self) -> int:
+        return int(self.dofs.N)
+
+    def matrix(self, eps_by_region: dict[int, complex]) -> sp.csr_matrix:
+        """K = eps0 * sum_r eps_r K_r."""
+        K = None
+        for r, Kr in self.parts.items():
+            e = complex(eps_by_region[MEDIUM_REGION if r == SHELL_REGION else r])
+            term = Kr * (EPS0 * (e.real if e.imag == 0 else e))
+            K = term if K is None else K + term
+        return K.tocsr()
+
+    def basis(self) -> Basis:
+        """A scikit-fem basis with this numbering (for interpolation and plotting)."""
+        m = self.skmesh
+        if self.mesh.curved:
+            m = MeshTri2(
+                _quadratic_nodes(self.mesh, m), _p2_element_dofs(m), sort_t=False, validate=False
+            )
+        return Basis(m, _ELEMENTS[self.degree]())
+
+
+def _p2_element_dofs(m: MeshTri1) -> np.ndarray:
+    return np.vstack((m.t, m.p.shape[1] + m.t2f))
+
+
+def _quadratic_nodes(mesh: TriMesh, m: MeshTri1) -> np.ndarray:
+    """Vertices, then facet midpoints (moved onto their circle on curved edges)."""
+    mid = 0.5 * (m.p[:, m.facets[0]] + m.p[:, m.facets[1]])
+    pos, arc = _arc_facets(mesh, m)
+    for f, a in zip(pos, arc, strict=True):
+        cx, cy, r = mesh.arcs[a]
+        v = mid[:, f] - (cx, cy)
+        mid[:, f] = (cx, cy) + r * v / np.linalg.norm(v)
+    return np.hstack((m.p, mid))
+
+
+def _facet_index(m: MeshTri1, edges: np.ndarray) -> np.ndarray:
+    """Index into m.facets of each (sorted) vertex pair in ``edges``."""
+    fkeys = _edge_keys(m.facets[0], m.facets[1])
+    ek = _edge_keys(edges[0], edges[1])
+    if ek.size == 0:
+        return np.zeros(0, np.int64)
+    order = np.argsort(fkeys)
+    pos = order[np.searchsorted(fkeys, ek, sorter=order)]
+    if not np.array_equal(fkeys[pos], ek):
+        raise SolverError("internal: a tagged edge is not an edge of the mesh")
+    return pos
+
+
+def _arc_facets(mesh: TriMesh, m: MeshTri1):
+    on = mesh.edge_arc >= 0
+    return _facet_index(m, mesh.edges[:, on]), mesh.edge_arc[on]
+
+
+def assemble(mesh: TriMesh, degree: int, n_conductors: int) -> Assembly:
+    """Assemble the stiffness matrix of each region on ``mesh`` with P``degree`` elements.
+
+    Straight-sided elements use exact reference-element products (one matrix multiply
+    for all elements); curved and shell elements use quadrature at every point.
+    """
+    t0 = time.perf_counter()
+    if degree not in _ELEMENTS:
+        raise SolverError(f"element degree = {degree}; valid: 1 to 4", value=degree)
+    m = MeshTri1(np.ascontiguousarray(mesh.p), np.ascontiguousarray(mesh.t), validate=False)
+    dofs = Dofs(m, _ELEMENTS[degree]())
+    ref = _reference(degree)
+    t = m.t
+    p = m.p
+    nel = t.shape[1]
+    Ke = np.empty((nel, ref.nb, ref.nb))
+    shell = mesh.region == SHELL_REGION
+    curved = np.zeros(nel, bool)
+    if mesh.curved:
+        pos, _ = _arc_facets(mesh, m)
+        curved[np.any(np.isin(m.t2f, pos), axis=0)] = True
+    plain = ~shell & ~curved
+    Ke[plain] = _straight_matrices(ref, p, t[:, plain], mesh.axisymmetric)
+    if shell.any():
+        Ke[shell] = _shell_matrices(
+            ref, p, t[:, shell], mesh.shell, mesh.axisymmetric, order=2 * degree + 8
+        )
+    if curved.any():
+        nodes = _quadratic_nodes(mesh, m)
+        geo = nodes[:, _p2_element_dofs(m)[:, curved]]  # (2, 6, n)
+        Ke[curved] = _curved_matrices(ref, geo, mesh.axisymmetric, order=2 * degree + 2)
+    ed = dofs.element_dofs  # (nb, nel)
+    N = int(dofs.N)
+    parts: dict[int, sp.csr_matrix] = {}
+    for r in np.unique(mesh.region):
+        sel = mesh.region == r
+        rows = np.repeat(ed[:, sel].T, ref.nb, axis=1).ravel()
+        cols = np.tile(ed[:, sel].T, (1, ref.nb)).ravel()
+        parts[int(r)] = sp.csr_matrix((Ke[sel].ravel(), (rows, cols)), shape=(N, N))
+
+    def dofs_of(tag_mask):
+        f = _facet_index(m, mesh.edges[:, tag_mask])
+        if f.size == 0:
+            return np.zeros(0, np.int64)
+        out = [dofs.nodal_dofs[:, m.facets[:, f].ravel()].ravel()]
+        if dofs.facet_dofs.size:
+            out.append(dofs.facet_dofs[:, f].ravel())
+        return np.unique(np.concatenate(out)).astype(np.int64)
+
+    conductor_dofs = [dofs_of(mesh.edge_tag == k) for k in range(n_conductors)]
+    ground = dofs_of(mesh.edge_tag == GROUND_TAG)
+    inf = dofs_of(mesh.edge_tag == INFINITY_TAG)
+    floating = bool(mesh.shell is not None and mesh.shell.floating)
+    if not floating:
+        ground = np.union1d(ground, inf)
+        inf = np.zeros(0, np.int64)
+    return Assembly(
+        mesh=mesh,
+        degree=degree,
+        skmesh=m,
+        dofs=dofs,
+        parts=parts,
+        conductor_dofs=conductor_dofs,
+        ground_dofs=ground,
+        infinity_dofs=inf,
+        floating_infinity=floating,
+        curved_elements=np.nonzero(curved)[0],
+        seconds=time.perf_counter() - t0,
+    )
+
+
+@dataclass(eq=False)
+class FieldSolution:
+    """Potentials of the unit drives and the Maxwell matrix of one mesh and degree."""
+
+    assembly: Assembly
+    potentials: np.ndarray  # (n_dofs, n_conductors): u_k with conductor k at 1 V
+    maxwell_energy: np.ndarray  # C_jk = a(u_j, u_k), F (or F/m)
+    maxwell_charge: np.ndarray  # C_jk = charge on j from u_k
+    seconds: dict = field(default_factory=dict)
+
+    @property
+    def n_dofs(self) -> int:
+        return self.assembly.n_dofs
+
+
+def solve_unit_drives(asm: Assembly, eps_by_region: dict[int, complex]) -> FieldSolution:
+    """One factorisation, one solve per conductor held at 1 V (all others at 0 V)."""
+    t0 = time.perf_counter()
+    K = asm.matrix(eps_by_region)
+    N = asm.n_dofs
+    nc = len(asm.conductor_dofs)
+    fixed = np.zeros(N, bool)
+    for d in asm.conductor_dofs:
+        fixed[d] = True
+    fixed[asm.ground_dofs] = True
+    free = ~fixed
+    if asm.infinity_dofs.size:
+        free[asm.infinity_dofs] = False
+    free_idx = np.nonzero(free)[0]
+    n_u = free_idx.size + (1 if asm.infinity_dofs.size else 0)
+    rows = np.concatenate((free_idx, asm.infinity_dofs))
+    cols = np.concatenate(
+        (np.arange(free_idx.size), np.full(asm.infinity_dofs.size, free_idx.size))
+    )
+    P = sp.csr_matrix((np.ones(rows.size), (rows, cols)), shape=(N, n_u))
+    G = np.zeros((N, nc))
+    for k, d in enumerate(asm.conductor_dofs):
+        G[d, k] = 1.0
+    A = (P.T @ K @ P).tocsc()
+    rhs = -(P.T @ (K @ G))
+    t1 = time.perf_counter()
+    x = _direct_solve(A, np.asarray(rhs))
+    t2 = time.perf_counter()
+    U = P @ x + G
+    KU = K @ U
+    C_energy = U.T @ KU
+    C_charge = G.T @ KU
+    return FieldSolution(
+        asm,
+        U,
+        C_energy,
+        C_charge,
+        seconds={"assemble": asm.seconds, "system": t1 - t0, "factor_solve": t2 - t1},
+    )
+
+
+def _direct_solve(A: sp.csc_matrix, rhs: np.ndarray) -> np.ndarray:
+    """Sparse LU in symmetric mode with a minimum-degree ordering of A + A^T.
+
+    Measured (benchmarks/solvers.py): on these symmetric positive definite systems it is
+    3 to 5 times faster than SuperLU's default column ordering and uses a third of the
+    fill.
+    """
+    try:
+        lu = spla.splu(
+            A, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0, options={"SymmetricMode": True}
+        )
+    except RuntimeError as exc:
+        raise SolverError(
+            f"the field system is singular ({exc}); a region may be cut off "
+            "from every conductor and from ground"
+        ) from None
+    x = lu.solve(rhs.astype(A.dtype) if np.iscomplexobj(A) else rhs)
+    if not np.all(np.isfinite(x)):
+        raise SolverError(
+            "the field solve produced non-finite potentials; the system is singular or badly scaled"
+        )
+    return x

@@ -1,0 +1,129 @@
+"""One pint registry for the whole package, and conversion of user values to SI floats.
+
+Public functions accept a pint Quantity, a string with a unit (``"25 mm"``, ``"4.7 pF"``)
+or a plain number, which is taken in the SI unit of the quantity (metres, farads, ...).
+Inside the package every value is an SI float; quantities reappear only at the edges.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from numbers import Real
+from typing import Any
+
+import pint
+
+from .errors import InputError
+
+ureg = pint.UnitRegistry()
+ureg.formatter.default_format = "~P"
+pint.set_application_registry(ureg)  # quantities pickle into worker processes
+Q_ = ureg.Quantity
+
+_NUMBER_UNIT = re.compile(r"^([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*)$")
+
+#: Vacuum permittivity, F/m (CODATA 2022).
+EPS0 = 8.8541878188e-12
+
+# kind of quantity -> the unit a plain number is taken in (SI, but degC for temperature)
+_BASE_UNIT = {
+    "length": "m",
+    "capacitance": "F",
+    "capacitance per length": "F/m",
+    "frequency": "Hz",
+    "conductance": "S",
+    "voltage": "V",
+    "temperature": "degC",
+    "pressure": "Pa",
+    "dimensionless": "",
+}
+
+
+def base_unit(kind: str) -> str:
+    """The unit in which capbench holds quantities of ``kind`` internally."""
+    return _BASE_UNIT[kind]
+
+
+def parse_quantity(value: Any, name: str = "value") -> pint.Quantity:
+    """Turn a Quantity, a string with unit, or a number into a Quantity of this registry."""
+    if isinstance(value, pint.Quantity):
+        if value._REGISTRY is not ureg:  # a quantity from another registry
+            return Q_(value.magnitude, str(value.units))
+        return value
+    if isinstance(value, str):
+        text = value.strip().replace("\u00b5", "u").replace("\u03bc", "u")
+        if not text:
+            raise InputError(
+                f"{name} is empty; give a number with a unit, e.g. '25 mm'", name=name, value=value
+            )
+        match = _NUMBER_UNIT.match(text)
+        try:
+            if match is None:
+                raise ValueError("no leading number")
+            number, unit = match.group(1), match.group(2).strip()
+            q = Q_(float(number), unit or "")
+        except Exception as exc:  # pint raises several unrelated types here
+            raise InputError(
+                f"{name} = {value!r} is not a number with a unit (e.g. '25 mm', '4.7 pF'): {exc}",
+                name=name,
+                value=value,
+            ) from None
+        return q
+    if isinstance(value, Real) and not isinstance(value, bool):
+        return Q_(float(value), "")
+    raise InputError(
+        f"{name} = {value!r} has type {type(value).__name__}; give a number, "
+        "a string such as '25 mm', or a pint Quantity",
+        name=name,
+        value=value,
+    )
+
+
+def to_si(value: Any, kind: str, name: str = "value") -> float:
+    """Convert ``value`` to a float in capbench's internal unit for ``kind``.
+
+    ``kind`` is one of "length", "capacitance", "capacitance per length", "frequency",
+    "conductance", "voltage", "temperature" (degC), "pressure", "dimensionless". A plain
+    number (or a string holding only a number) is taken in that unit. Raises
+    :class:`InputError` naming the value and the expected unit when the dimension is
+    wrong or the number is not finite.
+    """
+    unit = _BASE_UNIT[kind]
+    q = parse_quantity(value, name)
+    if q.dimensionless and not isinstance(value, pint.Quantity):
+        number = float(q.magnitude)
+    else:
+        try:
+            number = float(q.to(unit).magnitude)
+        except pint.DimensionalityError:
+            shown = unit or "a plain number"
+            raise InputError(
+                f"{name} = {value!r} is not a {kind}; give it in {shown} or another "
+                f"{kind} unit (got {q.units:~P})",
+                name=name,
+                value=value,
+                expected_unit=unit,
+            ) from None
+    if not math.isfinite(number):
+        raise InputError(f"{name} = {value!r} is not a finite number", name=name, value=value)
+    return number
+
+
+def length(value: Any, name: str = "length") -> float:
+    """A length in metres."""
+    return to_si(value, "length", name)
+
+
+def quantity(magnitude: Any, unit: str) -> pint.Quantity:
+    """An output quantity in this package's registry."""
+    return Q_(magnitude, unit)
+
+
+def fmt(q: pint.Quantity | float, unit: str | None = None, digits: int = 6) -> str:
+    """Format a quantity with ``digits`` significant digits, in ``unit`` if given."""
+    if isinstance(q, pint.Quantity):
+        if unit:
+            q = q.to(unit)
+        return f"{q.magnitude:.{digits}g} {q.units:~P}"
+    return f"{q:.{digits}g}" + (f" {unit}" if unit else "")
