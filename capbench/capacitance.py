@@ -23,12 +23,13 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 import pint
+from skfem import Basis
 
 from . import field as fe
 from . import mesh as mm
 from .errors import GeometryError, SolverError
-from .geometry import DIRECT, GROUND, PAIR, Fixture, Geometry, OpenSpace
-from .units import Q_
+from .geometry import DIRECT, GROUND, MEDIUM, PAIR, Fixture, Geometry, OpenSpace
+from .units import EPS0, Q_
 
 #: assumed error contraction per step: degree 3 -> 4 on one mesh, and one uniform refinement
 Q_DEGREE = 0.25
@@ -149,6 +150,64 @@ class Solution:
     def potential(self) -> PotentialField:
         return potential_field(self)
 
+    def sensitivity(self, region: str) -> complex:
+        """d(terminal capacitance)/d(eps_r of ``region``), in F (F/m) per unit eps_r.
+
+        Exact for the discrete solution: with V the conductor potentials of the terminal
+        drive, C_terminal = sum V_j V_k C_jk for PAIR (and -C_hl for DIRECT), and
+        dC_jk/d eps = u_j^T K_region u_k (the solutions are stationary).
+        """
+        fs = self._need_field()
+        g = self.fixture.geometry
+        names = [d.name for d in g.dielectrics]
+        if region == MEDIUM:
+            codes = [mm.MEDIUM_REGION, mm.SHELL_REGION]
+        elif region in names:
+            codes = [names.index(region) + 1]
+        else:
+            raise GeometryError(
+                f"no region named {region!r}; valid: {[*names, MEDIUM]}", value=region
+            )
+        asm = fs.assembly
+        U = fs.potentials
+        dC = np.zeros((U.shape[1], U.shape[1]), dtype=U.dtype)
+        for c in codes:
+            if c in asm.parts:
+                dC = dC + U.T @ (asm.parts[c] @ U) * EPS0
+        fx = self.fixture
+        return (
+            terminal_derivative(
+                fs.maxwell_energy, dC, self.terminals, fx.high, fx.low, fx.connection, self.grounded
+            )
+            * self._scale
+        )
+
+    def field_samples(self) -> tuple[np.ndarray, np.ndarray]:
+        """Points (2, n) and field strength |E| (V/m per volt of terminal drive) at the
+        quadrature points of every element outside the far-field shell, from the full
+        finite-element solution (degree 3 or 4), for peak-field checks."""
+        fs = self._need_field()
+        fx = self.fixture
+        V = drive_potentials(
+            fs.maxwell_energy, self.terminals, fx.high, fx.low, fx.connection, self.grounded
+        )
+        u = np.real(fs.potentials @ V)
+        asm = fs.assembly
+        inside = np.nonzero(asm.mesh.region != mm.SHELL_REGION)[0]
+        full = asm.basis()
+        basis = Basis(full.mesh, full.elem, elements=inside)
+        grad = basis.interpolate(u).grad  # (2, nel, nq)
+        x = basis.global_coordinates().value  # (2, nel, nq)
+        return x.reshape(2, -1), np.hypot(grad[0], grad[1]).ravel()
+
+    def _need_field(self) -> fe.FieldSolution:
+        if self.field is None:
+            raise SolverError(
+                "this solution carries no field (it was loaded from a file); "
+                "solve the fixture again"
+            )
+        return self.field
+
 
 # --------------------------------------------------------------------------- terminals
 
@@ -209,6 +268,23 @@ def terminal_capacitance(
     e = np.zeros(n - 1, dtype=C.dtype)
     e[keep.index(idx[high])] = 1.0
     return complex(1.0 / np.linalg.solve(Cr, e)[keep.index(idx[high])])
+
+
+def terminal_derivative(
+    C: np.ndarray,
+    dC: np.ndarray,
+    names: tuple[str, ...],
+    high: str,
+    low: str,
+    connection: str,
+    grounded: bool,
+) -> complex:
+    """Derivative of :func:`terminal_capacitance` for a change dC of the Maxwell matrix."""
+    if connection == DIRECT:
+        return terminal_capacitance(dC, names, high, low, DIRECT, grounded)
+    V = drive_potentials(C, names, high, low, connection, grounded)
+    # C_pair = 1/(q^T C^-1 q) = V^T C V with V the normalised drive; stationary in V
+    return complex(V @ dC @ V)
 
 
 def drive_potentials(
