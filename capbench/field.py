@@ -26,7 +26,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
-from skfem import Basis, ElementTriP1, ElementTriP2, ElementTriP3, ElementTriP4, MeshTri1, MeshTri2
+from skfem import ElementTriP1, ElementTriP2, ElementTriP3, ElementTriP4, MeshTri1
 from skfem.assembly import Dofs
 from skfem.quadrature import get_quadrature
 from skfem.refdom import RefTri
@@ -159,21 +159,67 @@ def _shell_matrices(ref: _Reference, p, t, shell: Shell, axisymmetric: bool, ord
     return _quadrature_matrices(ref, order, metric)
 
 
-def _curved_matrices(ref: _Reference, geo: np.ndarray, axisymmetric: bool, order: int):
-    """Element matrices of isoparametric elements; geo (2, 6, nel) holds the six nodes
-    of the quadratic geometry (vertices, then edge midpoints in scikit-fem's order)."""
-    geo_el = ElementTriP2()
+def _curved_mapping(p: np.ndarray, t: np.ndarray, arcs: np.ndarray):
+    """The exact map of elements with curved edges: X (2, nq) -> (x (2, n, nq), J).
+
+    arcs (3, n, 3): for local edge e (0: v0-v1, 1: v1-v2, 2: v0-v2) the circle (cx, cy, r),
+    or r = 0 for a straight edge. The map is the affine one plus, for each curved edge
+    (i, j), the correction l_i l_j q(tau), tau = (1 + l_j - l_i) / 2, where
+    q(t) = [c(t) - (1 - t) v_i - t v_j] / (t (1 - t)) and c(t) runs along the arc. On the
+    edge tau = l_j, so the edge is exact; the correction vanishes on the other two edges
+    and is smooth, so Gauss quadrature keeps its accuracy (a smooth variant of the
+    blending maps of M. Zlamal, SIAM J. Numer. Anal. 10(1), 229, 1973).
+    """
+    V = p[:, t]  # (2, 3, n)
+    local = ((0, 1), (1, 2), (0, 2))
+
+    def mapping(X):
+        lam = np.vstack((1 - X[0] - X[1], X[0], X[1]))  # (3, nq)
+        dlam = np.array([[-1.0, -1.0], [1.0, 0.0], [0.0, 1.0]])  # d lam_k / d X_b
+        x = np.einsum("akn,kq->anq", V, lam)
+        J = np.einsum("akn,kb->abn", V, dlam)[..., None] * np.ones(X.shape[1])
+        for e, (i, j) in enumerate(local):
+            R = arcs[e, :, 2]
+            on = R > 0
+            if not on.any():
+                continue
+            cx, cy = arcs[e, on, 0][:, None], arcs[e, on, 1][:, None]
+            vi, vj = V[:, i, on][:, :, None], V[:, j, on][:, :, None]
+            ti = np.arctan2(vi[1] - cy, vi[0] - cx)
+            tj = np.arctan2(vj[1] - cy, vj[0] - cx)
+            dth = np.mod(tj - ti + np.pi, 2 * np.pi) - np.pi  # the short way round
+            tau = 0.5 * (1.0 + lam[j] - lam[i])[None, :]
+            th = ti + tau * dth
+            Rn = R[on][:, None]
+            d = np.array([cx + Rn * np.cos(th), cy + Rn * np.sin(th)]) - (vi * (1 - tau) + vj * tau)
+            dp = np.array([-Rn * np.sin(th), Rn * np.cos(th)]) * dth + (vi - vj)
+            w = tau * (1 - tau)
+            q = d / w
+            qp = (dp * w - d * (1 - 2 * tau)) / w**2
+            li, lj = lam[i][None, None, :], lam[j][None, None, :]
+            x[:, on] += li * lj * q
+            df_di = lj * q - 0.5 * li * lj * qp
+            df_dj = li * q + 0.5 * li * lj * qp
+            for b in range(2):
+                J[:, b, on] += df_di * dlam[i, b] + df_dj * dlam[j, b]
+        return x, J
+
+    return mapping
+
+
+def _curved_matrices(
+    ref: _Reference, p: np.ndarray, t: np.ndarray, arcs: np.ndarray, axisymmetric: bool, order: int
+):
+    """Element matrices of elements with curved edges (see :func:`_curved_mapping`)."""
+    mapping = _curved_mapping(p, t, arcs)
 
     def metric(X):
-        N = np.array([geo_el.lbasis(X, i)[0] for i in range(6)])  # (6, nq)
-        dN = np.array([geo_el.lbasis(X, i)[1] for i in range(6)])  # (6, 2, nq)
-        J = np.einsum("akn,kbq->abnq", geo, dN)  # J[a, b] = dx_a / dX_b
+        x, J = mapping(X)  # J[a, b, n, q] = dx_a / dX_b
         det = J[0, 0] * J[1, 1] - J[0, 1] * J[1, 0]
         Ji = np.array([[J[1, 1], -J[0, 1]], [-J[1, 0], J[0, 0]]]) / det
         M = np.einsum("kanq,lanq->nqkl", Ji, Ji) * np.abs(det)[..., None, None]
         if axisymmetric:
-            r = np.einsum("kn,kq->nq", geo[0], N)
-            M = M * (2.0 * math.pi * r)[..., None, None]
+            M = M * (2.0 * math.pi * x[0])[..., None, None]
         return M
 
     return _quadrature_matrices(ref, order, metric)
@@ -212,30 +258,6 @@ class Assembly:
             K = term if K is None else K + term
         return K.tocsr()
 
-    def basis(self) -> Basis:
-        """A scikit-fem basis with this numbering (for interpolation and plotting)."""
-        m = self.skmesh
-        if self.mesh.curved:
-            m = MeshTri2(
-                _quadratic_nodes(self.mesh, m), _p2_element_dofs(m), sort_t=False, validate=False
-            )
-        return Basis(m, _ELEMENTS[self.degree]())
-
-
-def _p2_element_dofs(m: MeshTri1) -> np.ndarray:
-    return np.vstack((m.t, m.p.shape[1] + m.t2f))
-
-
-def _quadratic_nodes(mesh: TriMesh, m: MeshTri1) -> np.ndarray:
-    """Vertices, then facet midpoints (moved onto their circle on curved edges)."""
-    mid = 0.5 * (m.p[:, m.facets[0]] + m.p[:, m.facets[1]])
-    pos, arc = _arc_facets(mesh, m)
-    for f, a in zip(pos, arc, strict=True):
-        cx, cy, r = mesh.arcs[a]
-        v = mid[:, f] - (cx, cy)
-        mid[:, f] = (cx, cy) + r * v / np.linalg.norm(v)
-    return np.hstack((m.p, mid))
-
 
 def _facet_index(m: MeshTri1, edges: np.ndarray) -> np.ndarray:
     """Index into m.facets of each (sorted) vertex pair in ``edges``."""
@@ -253,6 +275,48 @@ def _facet_index(m: MeshTri1, edges: np.ndarray) -> np.ndarray:
 def _arc_facets(mesh: TriMesh, m: MeshTri1):
     on = mesh.edge_arc >= 0
     return _facet_index(m, mesh.edges[:, on]), mesh.edge_arc[on]
+
+
+def _element_arcs(mesh: TriMesh, m: MeshTri1) -> np.ndarray:
+    """(3, nel, 3): the circle (cx, cy, r) of each local edge, r = 0 where straight."""
+    arcs = np.zeros((3, m.t.shape[1], 3))
+    if not mesh.curved:
+        return arcs
+    pos, arc_id = _arc_facets(mesh, m)
+    circle = np.asarray(mesh.arcs)
+    facet_arc = np.full(m.facets.shape[1], -1)
+    facet_arc[pos] = arc_id
+    for e in range(3):
+        a = facet_arc[m.t2f[e]]
+        arcs[e, a >= 0] = circle[a[a >= 0]]
+    return arcs
+
+
+def gradients_at(
+    asm: Assembly, u: np.ndarray, X: np.ndarray, elements: np.ndarray | None = None
+) -> tuple[np.ndarray, np.ndarray]:
+    """Points x (2, n, nq) and gradients grad u (2, n, nq) at reference points X (2, nq)
+    of the given elements, through the exact element maps (straight or curved)."""
+    m = asm.skmesh
+    el = np.arange(m.t.shape[1]) if elements is None else np.asarray(elements)
+    t = m.t[:, el]
+    ref = _reference(asm.degree)
+    dphi = ref.gradients(X)  # (nb, 2, nq)
+    ue = u[asm.dofs.element_dofs[:, el]]  # (nb, n)
+    gref = np.einsum("in,ibq->bnq", ue, dphi)  # reference gradient (2, n, nq)
+    arcs = _element_arcs(asm.mesh, m)[:, el]
+    curved = np.any(arcs[:, :, 2] > 0, axis=0)
+    p0, B, _, Binv = _affine(m.p, t)
+    x = p0[:, :, None] + np.einsum("akn,kq->anq", B, X)
+    # grad u = J^-T grad_ref u
+    g = np.einsum("ban,bnq->anq", Binv, gref)
+    if curved.any():
+        xc, J = _curved_mapping(m.p, t[:, curved], arcs[:, curved])(X)
+        detc = J[0, 0] * J[1, 1] - J[0, 1] * J[1, 0]
+        Ji = np.array([[J[1, 1], -J[0, 1]], [-J[1, 0], J[0, 0]]]) / detc
+        x[:, curved] = xc
+        g[:, curved] = np.einsum("banq,bnq->anq", Ji, gref[:, curved])
+    return x, g
 
 
 def assemble(mesh: TriMesh, degree: int, n_conductors: int) -> Assembly:
@@ -283,9 +347,10 @@ def assemble(mesh: TriMesh, degree: int, n_conductors: int) -> Assembly:
             ref, p, t[:, shell], mesh.shell, mesh.axisymmetric, order=2 * degree + 8
         )
     if curved.any():
-        nodes = _quadratic_nodes(mesh, m)
-        geo = nodes[:, _p2_element_dofs(m)[:, curved]]  # (2, 6, n)
-        Ke[curved] = _curved_matrices(ref, geo, mesh.axisymmetric, order=2 * degree + 2)
+        arcs = _element_arcs(mesh, m)
+        Ke[curved] = _curved_matrices(
+            ref, p, t[:, curved], arcs[:, curved], mesh.axisymmetric, order=2 * degree + 4
+        )
     ed = dofs.element_dofs  # (nb, nel)
     N = int(dofs.N)
     parts: dict[int, sp.csr_matrix] = {}

@@ -530,10 +530,12 @@ class Geometry:
         return tuple(c.name for c in self.conductors)
 
     def bbox(self) -> tuple[float, float, float, float]:
-        """Bounding box of every part (not of the outer boundary)."""
+        """Bounding box of every part (not of the outer boundary), within r >= 0 for
+        axisymmetric sections."""
         boxes = [p.shape.bbox for p in (*self.conductors, *self.dielectrics)]
         x0, y0, x1, y1 = zip(*boxes, strict=True)
-        return (min(x0), min(y0), max(x1), max(y1))
+        left = max(min(x0), 0.0) if self.axisymmetric else min(x0)
+        return (left, min(y0), max(x1), max(y1))
 
     def size(self) -> float:
         """The largest extent of the parts, the scale that tolerances refer to."""
@@ -650,7 +652,8 @@ def validate(g: Geometry) -> None:
         for p, s in (
             (part, s) for part in (*g.conductors, *g.dielectrics) for s in simple_shapes(part.shape)
         ):
-            x0 = s.bbox[0]
+            on_axis = isinstance(s, (Circle, Annulus)) and s.cx == 0.0
+            x0 = 0.0 if on_axis else s.bbox[0]
             if x0 < 0:
                 raise GeometryError(
                     f"{p.name!r} reaches r = {x0:.6g} m; an axisymmetric section lies in "

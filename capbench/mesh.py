@@ -1145,8 +1145,7 @@ def _box_vertices(p, box, axi, plane) -> np.ndarray:
         on |= np.abs(x - x0) < tol
     if plane is None:
         on |= np.abs(y - y0) < tol
-    else:
-        on |= np.abs(y - plane) < tol
+    # on a ground plane only the box's corners join the chain (they are already in)
     return np.nonzero(on)[0]
 
 
