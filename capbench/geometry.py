@@ -652,15 +652,6 @@ def validate(g: Geometry) -> None:
         for p, s in (
             (part, s) for part in (*g.conductors, *g.dielectrics) for s in simple_shapes(part.shape)
         ):
-            on_axis = isinstance(s, (Circle, Annulus)) and s.cx == 0.0
-            x0 = 0.0 if on_axis else s.bbox[0]
-            if x0 < 0:
-                raise GeometryError(
-                    f"{p.name!r} reaches r = {x0:.6g} m; an axisymmetric section lies in "
-                    "r >= 0 m (the z axis is r = 0)",
-                    name=p.name,
-                    value=x0,
-                )
             if isinstance(s, (Circle, Annulus)) and 0 < s.cx < (
                 s.radius if isinstance(s, Circle) else s.outer
             ):
@@ -670,6 +661,15 @@ def validate(g: Geometry) -> None:
                     "(a torus)",
                     name=p.name,
                     value=s.cx,
+                )
+            on_axis = isinstance(s, (Circle, Annulus)) and s.cx == 0.0
+            x0 = 0.0 if on_axis else s.bbox[0]
+            if x0 < 0:
+                raise GeometryError(
+                    f"{p.name!r} reaches r = {x0:.6g} m; an axisymmetric section lies in "
+                    "r >= 0 m (the z axis is r = 0)",
+                    name=p.name,
+                    value=x0,
                 )
             if isinstance(s, Plate) and s.x0 == 0 and s.x1 == 0:
                 raise GeometryError(

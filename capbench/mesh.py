@@ -691,10 +691,19 @@ def _quadtree_points(box, sf: SizeField, h_floor: float) -> np.ndarray:
     wx = np.full(cx.size, sx)
     wy = np.full(cy.size, sy)
     leaves = []
+    count = 0
     for _ in range(60):
         h = sf(np.vstack((cx, cy)))
         split = (np.maximum(wx, wy) > h) & (np.maximum(wx, wy) > 2 * h_floor)
         leaves.append(np.vstack((cx[~split], cy[~split], np.maximum(wx, wy)[~split])))
+        count += int(np.count_nonzero(~split)) + 4 * int(np.count_nonzero(split))
+        if count > MAX_SEED_POINTS:
+            raise GeometryError(
+                f"this fixture needs more than {MAX_SEED_POINTS:,} seed mesh points: a gap "
+                f"of {2 * float(np.min(h)):.3g} m runs along parts up to {max(W, H):.3g} m "
+                "long; widen the thinnest gap or shorten the parts beside it",
+                points=count, limit=MAX_SEED_POINTS,
+            )
         if not split.any():
             break
         cx, cy, wx, wy = cx[split], cy[split], wx[split] / 2, wy[split] / 2
@@ -803,7 +812,12 @@ def seed(
     return mesh
 
 
+MAX_SEED_POINTS = 300_000
+
+
 def _check_resolvable(pieces: list[_Piece], size: float) -> None:
+    """Refuse boundary pieces and gaps below 1e-7 of the fixture size."""
+    _check_gaps(pieces, size)
     for pc in pieces:
         if pc.edge.length < 1e-7 * size and not pc.box:
             x, y = pc.edge.a
@@ -815,6 +829,46 @@ def _check_resolvable(pieces: list[_Piece], size: float) -> None:
                 length=pc.edge.length,
                 minimum=1e-7 * size,
             )
+
+
+def _check_gaps(pieces: list[_Piece], size: float) -> None:
+    tol = _tol(size)
+    chords = []
+    for i, pc in enumerate(pieces):
+        e = pc.edge
+        n = 1 if isinstance(e, Line) else max(2, int(math.ceil(abs(e.t1 - e.t0) / 0.2)))
+        pts = e.point(np.linspace(0, 1, n + 1))
+        chords.extend((pts[:, k], pts[:, k + 1], i) for k in range(n))
+    ends = {i: {(round(pc.edge.a[0] / tol), round(pc.edge.a[1] / tol)),
+                (round(pc.edge.b[0] / tol), round(pc.edge.b[1] / tol))}
+            for i, pc in enumerate(pieces)}
+    for k, (a0, a1, i) in enumerate(chords):
+        for b0, b1, j in chords[k + 1:]:
+            if i == j or ends[i] & ends[j]:
+                continue
+            gap = _segment_distance(a0, a1, b0, b1)
+            if gap < 1e-7 * size:
+                names = sorted(pieces[i].owners | pieces[j].owners)
+                raise GeometryError(
+                    f"the gap between {names} near ({a0[0]:.6g} m, {a0[1]:.6g} m) is "
+                    f"{gap:.3g} m, below what a mesh of a {size:.3g} m fixture can resolve "
+                    f"(1e-7 of its size = {1e-7 * size:.3g} m); separate the parts further "
+                    "or let them touch",
+                    gap=gap, minimum=1e-7 * size,
+                )
+
+
+def _segment_distance(a0, a1, b0, b1) -> float:
+    """Shortest distance between segments a0-a1 and b0-b1 (they do not cross here)."""
+
+    def point_seg(p, s0, s1):
+        d = s1 - s0
+        L2 = float(d @ d)
+        s = 0.0 if L2 == 0 else min(1.0, max(0.0, float((p - s0) @ d) / L2))
+        return float(np.linalg.norm(p - (s0 + s * d)))
+
+    return min(point_seg(a0, b0, b1), point_seg(a1, b0, b1),
+               point_seg(b0, a0, a1), point_seg(b1, a0, a1))
 
 
 def _signed_area(p, t):
@@ -930,6 +984,7 @@ def star_refine(mesh: TriMesh, h_min: float, sigma: float) -> TriMesh:
     drop_edge = np.zeros(mesh.edges.shape[1], bool)
     is_sing = np.zeros(n, bool)
     is_sing[mesh.singular] = True
+    skipped: list[int] = []
     for v in mesh.singular:
         star = np.nonzero(np.any(mesh.t == v, axis=0))[0]
         if star.size == 0:
@@ -941,6 +996,11 @@ def star_refine(mesh: TriMesh, h_min: float, sigma: float) -> TriMesh:
                 "two singular points are joined by one element edge; the seed mesh is "
                 "too coarse there (reduce MeshOptions.corner_size)"
             )
+        if _star_min_angle(mesh, v, star) < 2.0:
+            # a cusp (a boundary leaving another tangentially) is not a field
+            # singularity, and geometric layers there would have no area
+            skipped.append(v)
+            continue
         lengths = np.linalg.norm(mesh.p[:, nbrs] - mesh.p[:, [v]], axis=0)
         # one layer count per vertex, so that neighbouring triangles share their rays
         K = math.ceil(math.log(h_min / float(np.mean(lengths))) / math.log(sigma))
@@ -990,7 +1050,7 @@ def star_refine(mesh: TriMesh, h_min: float, sigma: float) -> TriMesh:
         edge_tag=tag,
         edge_arc=arc,
         arcs=mesh.arcs,
-        singular=mesh.singular,
+        singular=np.setdiff1d(mesh.singular, skipped),
         axisymmetric=mesh.axisymmetric,
         shell=mesh.shell,
         level=mesh.level,
@@ -998,6 +1058,19 @@ def star_refine(mesh: TriMesh, h_min: float, sigma: float) -> TriMesh:
     )
     _fix_orientation(out)
     _project_arcs(out)
+    return out
+
+
+def _star_min_angle(mesh: TriMesh, v: int, star: np.ndarray) -> float:
+    """Smallest angle (degrees) at vertex v among the triangles of its star."""
+    out = 180.0
+    for e in star:
+        tri = list(mesh.t[:, e])
+        k = tri.index(v)
+        a = mesh.p[:, tri[(k + 1) % 3]] - mesh.p[:, v]
+        b = mesh.p[:, tri[(k + 2) % 3]] - mesh.p[:, v]
+        c = float(a @ b / (np.linalg.norm(a) * np.linalg.norm(b)))
+        out = min(out, math.degrees(math.acos(max(-1.0, min(1.0, c)))))
     return out
 
 
