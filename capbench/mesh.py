@@ -577,14 +577,19 @@ def _singular_points(geometry: Geometry, pieces: list[_Piece], tol: float) -> np
     for part in (*geometry.conductors, *geometry.dielectrics):
         pts.extend(shape_corners(part.shape, geometry.axisymmetric))
     owners_at: dict[tuple[int, int], list] = {}
+    on_arc: set[tuple[int, int]] = set()
     for pc in pieces:
         if pc.box and not pc.ground:
             continue
         for pt in (pc.edge.a, pc.edge.b):
             key = (round(pt[0] / tol), round(pt[1] / tol))
             owners_at.setdefault(key, []).append(frozenset(pc.owners))
+            if isinstance(pc.edge, Arc):
+                on_arc.add(key)
     for key, owner_sets in owners_at.items():
-        if len(set(owner_sets)) > 1:
+        # junctions on a curve are left ungraded: where a flat face leaves a rounded
+        # electrode tangentially the air wedge is a cusp, with no field singularity
+        if len(set(owner_sets)) > 1 and key not in on_arc:
             pts.append((key[0] * tol, key[1] * tol))
     if not pts:
         return np.zeros((0, 2))
@@ -702,7 +707,8 @@ def _quadtree_points(box, sf: SizeField, h_floor: float) -> np.ndarray:
                 f"this fixture needs more than {MAX_SEED_POINTS:,} seed mesh points: a gap "
                 f"of {2 * float(np.min(h)):.3g} m runs along parts up to {max(W, H):.3g} m "
                 "long; widen the thinnest gap or shorten the parts beside it",
-                points=count, limit=MAX_SEED_POINTS,
+                points=count,
+                limit=MAX_SEED_POINTS,
             )
         if not split.any():
             break
@@ -836,14 +842,18 @@ def _check_gaps(pieces: list[_Piece], size: float) -> None:
     chords = []
     for i, pc in enumerate(pieces):
         e = pc.edge
-        n = 1 if isinstance(e, Line) else max(2, int(math.ceil(abs(e.t1 - e.t0) / 0.2)))
+        n = 1 if isinstance(e, Line) else max(2, math.ceil(abs(e.t1 - e.t0) / 0.2))
         pts = e.point(np.linspace(0, 1, n + 1))
         chords.extend((pts[:, k], pts[:, k + 1], i) for k in range(n))
-    ends = {i: {(round(pc.edge.a[0] / tol), round(pc.edge.a[1] / tol)),
-                (round(pc.edge.b[0] / tol), round(pc.edge.b[1] / tol))}
-            for i, pc in enumerate(pieces)}
+    ends = {
+        i: {
+            (round(pc.edge.a[0] / tol), round(pc.edge.a[1] / tol)),
+            (round(pc.edge.b[0] / tol), round(pc.edge.b[1] / tol)),
+        }
+        for i, pc in enumerate(pieces)
+    }
     for k, (a0, a1, i) in enumerate(chords):
-        for b0, b1, j in chords[k + 1:]:
+        for b0, b1, j in chords[k + 1 :]:
             if i == j or ends[i] & ends[j]:
                 continue
             gap = _segment_distance(a0, a1, b0, b1)
@@ -854,7 +864,8 @@ def _check_gaps(pieces: list[_Piece], size: float) -> None:
                     f"{gap:.3g} m, below what a mesh of a {size:.3g} m fixture can resolve "
                     f"(1e-7 of its size = {1e-7 * size:.3g} m); separate the parts further "
                     "or let them touch",
-                    gap=gap, minimum=1e-7 * size,
+                    gap=gap,
+                    minimum=1e-7 * size,
                 )
 
 
@@ -867,8 +878,9 @@ def _segment_distance(a0, a1, b0, b1) -> float:
         s = 0.0 if L2 == 0 else min(1.0, max(0.0, float((p - s0) @ d) / L2))
         return float(np.linalg.norm(p - (s0 + s * d)))
 
-    return min(point_seg(a0, b0, b1), point_seg(a1, b0, b1),
-               point_seg(b0, a0, a1), point_seg(b1, a0, a1))
+    return min(
+        point_seg(a0, b0, b1), point_seg(a1, b0, b1), point_seg(b0, a0, a1), point_seg(b1, a0, a1)
+    )
 
 
 def _signed_area(p, t):

@@ -26,7 +26,7 @@ def love_discs(kappa: float, panel_width: float | None = None, order: int = 16) 
     (the kernel has poles at t = x +- i kappa).
     """
     width = min(kappa, 0.5) if panel_width is None else panel_width
-    n_panels = max(4, int(math.ceil(2.0 / width)))
+    n_panels = max(4, math.ceil(2.0 / width))
     x0, w0 = np.polynomial.legendre.leggauss(order)
     edges = np.linspace(-1.0, 1.0, n_panels + 1)
     h = np.diff(edges)

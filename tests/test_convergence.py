@@ -31,8 +31,9 @@ from capbench.geometry import (
 def _terminal(mesh: mm.TriMesh, degree: int, g: Geometry, high: str, low: str) -> float:
     asm = fe.assemble(mesh, degree, len(g.conductors))
     fs = fe.solve_unit_drives(asm, cc.eps_by_region(g))
-    return cc.terminal_capacitance(fs.maxwell_energy, g.conductor_names, high, low, DIRECT,
-                                   cc.has_ground(g)).real
+    return cc.terminal_capacitance(
+        fs.maxwell_energy, g.conductor_names, high, low, DIRECT, cc.has_ground(g)
+    ).real
 
 
 def _slope(errors: list[float]) -> float:
@@ -44,8 +45,9 @@ def _slope(errors: list[float]) -> float:
 def test_smooth_field_converges_at_rate_2p(degree):
     # coaxial cylinders, C' = 2 pi eps0 / ln(b/a) (textbook); exact curved boundaries
     a, b = 0.02, 0.05
-    g = Geometry(PLANAR, (Conductor("in", Circle(0, 0, a)),
-                          Conductor("out", Annulus(0, 0, b, 1.2 * b))))
+    g = Geometry(
+        PLANAR, (Conductor("in", Circle(0, 0, a)), Conductor("out", Annulus(0, 0, b, 1.2 * b)))
+    )
     exact = ref.coaxial_cylinders(a, b)
     mesh = mm.attach_shell(mm.seed(g), g)
     errors = []

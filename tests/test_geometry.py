@@ -58,35 +58,40 @@ def test_specimen_thicker_than_gap_is_refused():
 
 def test_permittivity_below_one_is_refused():
     with pytest.raises(cb.InputError, match=r"0\.5 is outside the valid range 1 to 10000"):
-        cb.guarded_cell(electrode_radius="25 mm", guard_gap="0.5 mm", guard_width="10 mm",
-                        specimen_thickness="2 mm", specimen_eps_r=0.5)
+        cb.guarded_cell(
+            electrode_radius="25 mm",
+            guard_gap="0.5 mm",
+            guard_width="10 mm",
+            specimen_thickness="2 mm",
+            specimen_eps_r=0.5,
+        )
     with pytest.raises(cb.GeometryError, match="eps_r >= 1"):
         Geometry(PLANAR, (Conductor("a", Plate(0, 0, 1, 0)),), medium_eps_r=0.9)
 
 
 def test_touching_conductors_are_refused_with_both_names():
-    g = Geometry(PLANAR, (Conductor("left", Rect(0, 0, 1, 1)),
-                          Conductor("right", Rect(1, 0, 2, 1))))
+    g = Geometry(
+        PLANAR, (Conductor("left", Rect(0, 0, 1, 1)), Conductor("right", Rect(1, 0, 2, 1)))
+    )
     with pytest.raises(cb.GeometryError, match=r"\['left', 'right'\].*gap > 0 m"):
         mm.seed(g)
 
 
 def test_overlapping_conductors_are_refused():
-    g = Geometry(PLANAR, (Conductor("a", Rect(0, 0, 1, 1)),
-                          Conductor("b", Rect(0.5, 0.5, 2, 2))))
+    g = Geometry(PLANAR, (Conductor("a", Rect(0, 0, 1, 1)), Conductor("b", Rect(0.5, 0.5, 2, 2))))
     with pytest.raises(cb.GeometryError, match="touch or overlap"):
         mm.seed(g)
 
 
 def test_conductor_outside_enclosure_is_refused():
     with pytest.raises(cb.GeometryError, match="outside the enclosure"):
-        Geometry(PLANAR, (Conductor("a", Rect(0, 0, 1, 1)),),
-                 boundary=Enclosure(-0.5, -0.5, 0.8, 2))
+        Geometry(
+            PLANAR, (Conductor("a", Rect(0, 0, 1, 1)),), boundary=Enclosure(-0.5, -0.5, 0.8, 2)
+        )
 
 
 def test_conductor_touching_enclosure_is_refused():
-    g = Geometry(PLANAR, (Conductor("a", Rect(0, 0, 1, 1)),),
-                 boundary=Enclosure(-1, 0, 2, 2))
+    g = Geometry(PLANAR, (Conductor("a", Rect(0, 0, 1, 1)),), boundary=Enclosure(-1, 0, 2, 2))
     with pytest.raises(cb.GeometryError, match="the grounded boundary"):
         mm.seed(g)
 
@@ -100,12 +105,18 @@ def test_axisymmetric_parts_stay_in_r_ge_0():
 
 def test_partially_overlapping_dielectrics_are_refused_nested_ones_allowed():
     parts = (Conductor("a", Plate(0, 0, 1, 0)), Conductor("b", Plate(0, 2, 1, 2)))
-    crossing = Geometry(PLANAR, parts, (Dielectric("x", Rect(0, 0, 0.6, 1), 2.0),
-                                        Dielectric("y", Rect(0.4, 0, 1, 1), 3.0)))
+    crossing = Geometry(
+        PLANAR,
+        parts,
+        (Dielectric("x", Rect(0, 0, 0.6, 1), 2.0), Dielectric("y", Rect(0.4, 0, 1, 1), 3.0)),
+    )
     with pytest.raises(cb.GeometryError, match="overlap without one lying inside the other"):
         mm.seed(crossing)
-    nested = Geometry(PLANAR, parts, (Dielectric("x", Rect(0, 0, 1, 1), 2.0),
-                                      Dielectric("y", Rect(0.2, 0.2, 0.8, 0.8), 3.0)))
+    nested = Geometry(
+        PLANAR,
+        parts,
+        (Dielectric("x", Rect(0, 0, 1, 1), 2.0), Dielectric("y", Rect(0.2, 0.2, 0.8, 0.8), 3.0)),
+    )
     mesh = mm.seed(nested)
     inner = Rect(0.2, 0.2, 0.8, 0.8).contains(mesh.p[:, mesh.t].mean(axis=1))
     assert set(mesh.region[inner]) == {2}  # the inner dielectric holds inside
@@ -140,8 +151,13 @@ def test_errors_pickle_with_their_values():
 
 
 def test_with_changes_rebuilds_and_with_permittivity_copies():
-    fx = cb.guarded_cell(electrode_radius="25 mm", guard_gap="0.5 mm", guard_width="10 mm",
-                         specimen_thickness="2 mm", specimen_eps_r=2.3)
+    fx = cb.guarded_cell(
+        electrode_radius="25 mm",
+        guard_gap="0.5 mm",
+        guard_width="10 mm",
+        specimen_thickness="2 mm",
+        specimen_eps_r=2.3,
+    )
     wider = fx.with_changes(guard_gap="1 mm")
     assert wider.param_dict["guard_gap"] == 1e-3 and fx.param_dict["guard_gap"] == 5e-4
     other = fx.with_permittivity("specimen", 4.0)
@@ -161,10 +177,13 @@ def test_lossy_dielectric_gives_dissipation_factor():
     # the specimen's loss tangent only where all field lines cross it; with fringing in
     # air, D is diluted by the air share (common practice, no source). Check the bounds.
     tan_d = 1e-3
-    fx = cb.parallel_discs(radius="25 mm", gap="2 mm",
-                           specimen=cb.Specimen("2 mm", complex(3.0, -3.0 * tan_d)))
+    fx = cb.parallel_discs(
+        radius="25 mm", gap="2 mm", specimen=cb.Specimen("2 mm", complex(3.0, -3.0 * tan_d))
+    )
     sol = cb.solve(fx, rtol=1e-6)
     assert 0.9 * tan_d < sol.dissipation_factor < tan_d
-    assert_close(sol.capacitance.to("pF").magnitude,
-                 cb.solve(fx.with_permittivity("specimen", 3.0), rtol=1e-6)
-                 .capacitance.to("pF").magnitude, rtol=1e-5)
+    assert_close(
+        sol.capacitance.to("pF").magnitude,
+        cb.solve(fx.with_permittivity("specimen", 3.0), rtol=1e-6).capacitance.to("pF").magnitude,
+        rtol=1e-5,
+    )

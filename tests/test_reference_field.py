@@ -37,16 +37,16 @@ def build(case: dict) -> Fixture:
         return cb.parallel_discs(radius=case["radius"], gap=case["gap"])
     if kind == "isolated_disc":
         parts = (Conductor("disc", Plate(0.0, 0.0, case["radius"], 0.0)),)
-        return Fixture(Geometry(AXISYMMETRIC, parts), high="disc", low=GROUND,
-                       connection=DIRECT)
+        return Fixture(Geometry(AXISYMMETRIC, parts), high="disc", low=GROUND, connection=DIRECT)
     if kind == "isolated_sphere":
         parts = (Conductor("sphere", Circle(0.0, 0.0, case["radius"])),)
-        return Fixture(Geometry(AXISYMMETRIC, parts), high="sphere", low=GROUND,
-                       connection=DIRECT)
+        return Fixture(Geometry(AXISYMMETRIC, parts), high="sphere", low=GROUND, connection=DIRECT)
     if kind in ("concentric_spheres", "coaxial_cylinders"):
         a, b = case["inner"], case["outer"]
-        parts = (Conductor("inner", Circle(0.0, 0.0, a)),
-                 Conductor("outer", Annulus(0.0, 0.0, b, 1.2 * b)))
+        parts = (
+            Conductor("inner", Circle(0.0, 0.0, a)),
+            Conductor("outer", Annulus(0.0, 0.0, b, 1.2 * b)),
+        )
         sym = AXISYMMETRIC if kind == "concentric_spheres" else PLANAR
         return Fixture(Geometry(sym, parts), high="inner", low="outer", connection=DIRECT)
     if kind == "sphere_over_plane":
@@ -63,7 +63,8 @@ def test_reference_case_at_1e6(case):
     true_error = abs(sol.terminal.real - case["capacitance"]) / case["capacitance"]
     assert true_error <= 1e-6, f"{case['id']}: true error {true_error:.2e} ({case['source']})"
     assert sol.rel_error >= true_error, (
-        f"{case['id']}: estimate {sol.rel_error:.2e} below true error {true_error:.2e}")
+        f"{case['id']}: estimate {sol.rel_error:.2e} below true error {true_error:.2e}"
+    )
     assert sol.rel_error <= 1e-6
 
 
@@ -106,8 +107,7 @@ def test_hand_formulas_fall_short_as_the_trade_says():
     c = sol.terminal.real / (ref.EPS0 * a)
     ideal = math.pi / kappa
     assert_close(c / ideal - 1, 0.1756, rtol=1e-3, what="parallel-plate shortfall")
-    assert_close(1 - ref.kirchhoff_discs(kappa) / c, 0.0080, rtol=1e-2,
-                 what="Kirchhoff shortfall")
+    assert_close(1 - ref.kirchhoff_discs(kappa) / c, 0.0080, rtol=1e-2, what="Kirchhoff shortfall")
 
 
 def test_kirchhoff_converges_as_the_gap_closes():
@@ -124,8 +124,13 @@ def test_kirchhoff_converges_as_the_gap_closes():
 def test_energy_and_charge_forms_agree():
     # Common practice, no source: C_jk from the field energy a(u_j, u_k) and from the
     # charge on conductor j must agree once the linear system is solved exactly.
-    fx = cb.guarded_cell(electrode_radius="25 mm", guard_gap="0.5 mm", guard_width="10 mm",
-                         specimen_thickness="2 mm", specimen_eps_r=2.3)
+    fx = cb.guarded_cell(
+        electrode_radius="25 mm",
+        guard_gap="0.5 mm",
+        guard_width="10 mm",
+        specimen_thickness="2 mm",
+        specimen_eps_r=2.3,
+    )
     sol = cb.solve(fx, rtol=1e-6)
     assert sol.energy_charge_mismatch < 1e-10
 
@@ -134,8 +139,13 @@ def test_maxwell_matrix_is_a_capacitance_matrix():
     # Maxwell matrix properties (common practice, no source): symmetric, positive
     # diagonal, non-positive off-diagonals, diagonally dominant (the rest is the
     # capacitance to ground).
-    fx = cb.guarded_cell(electrode_radius="25 mm", guard_gap="0.5 mm", guard_width="10 mm",
-                         specimen_thickness="2 mm", specimen_eps_r=2.3)
+    fx = cb.guarded_cell(
+        electrode_radius="25 mm",
+        guard_gap="0.5 mm",
+        guard_width="10 mm",
+        specimen_thickness="2 mm",
+        specimen_eps_r=2.3,
+    )
     C = cb.solve(fx, rtol=1e-6).maxwell
     assert np.allclose(C, C.T, rtol=1e-12, atol=0)
     assert np.all(np.diag(C) > 0)
@@ -159,8 +169,9 @@ def test_thompson_lampard_unequal_sides():
     exp(-pi C1/eps0) + exp(-pi C2/eps0) = 1 (Thompson and Lampard, 1956)."""
     fx = cb.four_electrode_section(width="20 mm", height="13 mm", gap="0.02 mm")
     c1 = cb.solve(fx, rtol=1e-7).terminal.real
-    c2 = cb.solve(Fixture(fx.geometry, high="b", low="d", connection=DIRECT),
-                  rtol=1e-7).terminal.real
+    c2 = cb.solve(
+        Fixture(fx.geometry, high="b", low="d", connection=DIRECT), rtol=1e-7
+    ).terminal.real
     assert abs(c1 - c2) > 0.5 * c1  # far from the symmetric case
     residual = math.exp(-math.pi * c1 / ref.EPS0) + math.exp(-math.pi * c2 / ref.EPS0) - 1
     assert abs(residual) < 1e-6
