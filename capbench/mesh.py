@@ -313,6 +313,10 @@ def _line_circle(line: Line, arc: Arc) -> list[np.ndarray]:
     m = a - np.array([arc.cx, arc.cy])
     A, B, C = d @ d, 2 * m @ d, m @ m - arc.radius**2
     disc = B * B - 4 * A * C
+    # a line tangent to the circle (a flat face meeting a rounded edge) touches it once;
+    # rounding would otherwise give two points 1e-12 m apart
+    if disc <= 1e-12 * (B * B + 4 * A * arc.radius**2):
+        disc = 0.0 if disc > -1e-12 * (B * B + 4 * A * arc.radius**2) else -1.0
     if disc < 0:
         return []
     root = math.sqrt(disc)
