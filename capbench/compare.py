@@ -1,6 +1,6 @@
 """Measured against ideal: where a capacitance reading comes from.
 
-Given a fixture and a measured capacitance, :func:`compare` splits the reading into the
+Given a fixture and a measured capacitance, :func:`measured_vs_ideal` splits the reading into the
 ideal parallel-plate value, the fringing share the finite-element field adds, the stray
 and lead capacitance the lab supplies, and the residual that none of these explain
 (with the shift of eps_r that would account for it). The same split is made for the
@@ -157,7 +157,7 @@ class Breakdown:
 
 @dataclass(frozen=True)
 class Comparison:
-    """Result of :func:`compare`: the fixture's own breakdown and its unguarded twin's.
+    """Result of :func:`measured_vs_ideal`: the fixture's own breakdown and its unguarded twin's.
 
     guarded: the breakdown of the fixture as measured (None if the fixture is itself
     unguarded); unguarded: two equal discs of the same electrode diameter on the same
@@ -192,7 +192,7 @@ def _optional_capacitance(value: Any, name: str) -> float:
     return v.check(value, "capacitance", name)
 
 
-def compare(
+def measured_vs_ideal(
     fixture: Fixture,
     measured: Any,
     *,

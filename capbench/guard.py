@@ -953,41 +953,29 @@ class _GradientProbe:
         self.region = asm.mesh.region
         m = asm.skmesh
         self.p, self.t = m.p, m.t
+        self.curved = bool(asm.mesh.curved)
         self.tree = cKDTree(np.mean(m.p[:, m.t], axis=1).T)
         self.k = min(candidates, m.t.shape[1])
 
     def __call__(self, P: np.ndarray):
         n = P.shape[1]
         b = self.basis
-        p, t = self.p, self.t
         _, near = self.tree.query(P.T, self.k)
         near = near.reshape(n, -1)
-        # straight-sided barycentric coordinates pick the element; the curved mapping
-        # then gives the exact reference point (a point beside a curved face may sit in
-        # the thin sliver between the chord and the arc, hence the slack)
-        best = np.full(n, -np.inf)
         cells = np.full(n, -1)
-        for j in range(near.shape[1]):
-            c = near[:, j]
-            a0, a1, a2 = p[:, t[0, c]], p[:, t[1, c]], p[:, t[2, c]]
-            d1, d2, q = a1 - a0, a2 - a0, P - a0
-            det = d1[0] * d2[1] - d1[1] * d2[0]
-            l1 = (q[0] * d2[1] - q[1] * d2[0]) / det
-            l2 = (d1[0] * q[1] - d1[1] * q[0]) / det
-            score = np.minimum(np.minimum(l1, l2), 1 - l1 - l2)
-            better = score > best
-            best[better] = score[better]
-            cells[better] = c[better]
-        cells[best < -0.2] = -1
         X = np.zeros((2, n))
-        for i in np.nonzero(cells >= 0)[0]:
-            try:
-                X[:, i] = b.mapping.invF(P[:, i : i + 1, None], tind=cells[i : i + 1])[:, 0, 0]
-            except Exception:  # scikit-fem's Newton raises a bare Exception
-                cells[i] = -1
-                continue
-            if min(X[0, i], X[1, i], 1 - X[0, i] - X[1, i]) < -1e-6:
-                cells[i] = -1
+        for j in range(near.shape[1]):
+            todo = np.nonzero(cells < 0)[0]
+            if todo.size == 0:
+                break
+            c = near[todo, j]
+            Xj = self._reference_point(P[:, todo], c)
+            inside = np.all(np.isfinite(Xj), axis=0)
+            inside[inside] = (
+                np.minimum(np.minimum(Xj[0, inside], Xj[1, inside]), 1 - Xj.sum(0)[inside]) >= -1e-9
+            )
+            cells[todo[inside]] = c[inside]
+            X[:, todo[inside]] = Xj[:, inside]
         ok = cells >= 0
         E = np.zeros(n)
         reg = np.full(n, -99)
@@ -1003,6 +991,29 @@ class _GradientProbe:
         E[idx] = np.hypot(grad[0], grad[1])
         reg[idx] = self.region[c]
         return E, reg, ok
+
+    def _reference_point(self, P: np.ndarray, c: np.ndarray) -> np.ndarray:
+        """Reference coordinates of points P (2, m) in elements c: the straight-sided
+        barycentric guess, then Newton on the element's (possibly curved) mapping,
+        unclipped so that a point outside the element shows as such (NaN if Newton
+        does not settle)."""
+        p, t, b = self.p, self.t, self.basis
+        a0 = p[:, t[0, c]]
+        d1, d2, q = p[:, t[1, c]] - a0, p[:, t[2, c]] - a0, P - a0
+        det = d1[0] * d2[1] - d1[1] * d2[0]
+        X = np.vstack(((q[0] * d2[1] - q[1] * d2[0]) / det, (d1[0] * q[1] - d1[1] * q[0]) / det))
+        if not self.curved:
+            return X
+        Xq = X[:, :, None]
+        for _ in range(12):
+            F = b.mapping.F(Xq, tind=c)
+            dX = np.einsum("ijk,jk->ik", b.mapping.invDF(Xq, tind=c)[:, :, :, 0], (P - F[:, :, 0]))
+            Xq = Xq + dX[:, :, None]
+            if np.max(np.abs(dX)) < 1e-13:
+                break
+        X = Xq[:, :, 0]
+        X[:, np.any(np.abs(dX) > 1e-8, axis=0)] = np.nan
+        return X
 
 
 __all__ = [
