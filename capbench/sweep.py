@@ -46,6 +46,14 @@ class TaskFailed(CapbenchError, RuntimeError):
     """A task of a sweep raised; carries the item and the original message."""
 
 
+class ClusterError(CapbenchError, ConnectionError):
+    """The Dask scheduler at the given address could not be reached."""
+
+
+#: seconds to wait for a Dask scheduler before giving up
+CONNECT_TIMEOUT = 20.0
+
+
 @contextlib.contextmanager
 def executor(
     scheduler: str | Any | None = None, max_workers: int | None = None
@@ -93,7 +101,14 @@ def executor(
             "'tcp://host:8786', a dask.distributed.Client, or None for the local pool",
             value=scheduler,
         )
-    client = Client(scheduler)
+    try:
+        client = Client(scheduler, timeout=CONNECT_TIMEOUT)
+    except (OSError, TimeoutError) as exc:
+        raise ClusterError(
+            f"no Dask scheduler answered at {scheduler!r} within {CONNECT_TIMEOUT:g} s "
+            f"({exc}); start one (dask scheduler) or pass scheduler=None for local cores",
+            address=scheduler,
+        ) from None
     try:
         yield client.get_executor(pure=False)
     finally:

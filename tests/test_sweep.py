@@ -145,3 +145,12 @@ def test_sweep_refuses_bad_input():
         sweep.spec_of("not a fixture")
     with pytest.raises(cb.InputError, match="kind"):
         sweep.build({"params": {}})
+
+
+def test_unreachable_scheduler_is_a_clear_error(monkeypatch):
+    pytest.importorskip("distributed")
+    monkeypatch.setattr(sweep, "CONNECT_TIMEOUT", 2.0)
+    with pytest.raises(sweep.ClusterError, match="no Dask scheduler answered") as info:
+        sweep.run(add_one, [1], scheduler="tcp://127.0.0.1:9", progress=False)
+    assert isinstance(info.value, ConnectionError) and isinstance(info.value, cb.CapbenchError)
+    assert pickle.loads(pickle.dumps(info.value)).address == "tcp://127.0.0.1:9"
