@@ -588,9 +588,11 @@ def guard_design(
     target, basis, rtol, scheduler, max_workers, progress, **cell
         As in :func:`guard_check`.
     width_bounds : (length, length), optional
-        Guard widths searched; default 0.5 to 10 times the thickest specimen.
+        Guard widths searched; default 0.5 to 10 times the thickest specimen (inside a
+        shield if one is given).
     gap_bounds : (length, length), optional
-        Gaps searched; default 0.02 to 2 times the thinnest specimen.
+        Gaps searched; default 0.02 to 2 times the thinnest specimen (but not below
+        1/500 of the electrode radius, and inside a shield if one is given).
     resolution : length, optional
         Bisection stops when the bracket is this narrow; default 2 % of the thinnest
         specimen.
@@ -616,8 +618,18 @@ def guard_design(
     _check_solve_rtol(rtol, tgt)
     opts = _cell_options(cell)
     t_min, t_max = min(ts), max(ts)
-    wb = _bounds(width_bounds, (0.5 * t_max, 10 * t_max), "width_bounds")
-    gb = _bounds(gap_bounds, (0.02 * t_min, 2 * t_min), "gap_bounds")
+    w_hi, g_hi = 10 * t_max, 2 * t_min
+    room = _room_in_shield(opts, r1)
+    if room is not None:  # keep the default search inside the grounded can
+        w_hi = min(w_hi, 0.9 * (room - g0))
+        g_hi = min(g_hi, 0.9 * (room - w0))
+    wb = _bounds(width_bounds, (min(0.5 * t_max, 0.5 * w_hi), w_hi), "width_bounds")
+    # a gap over 500 times smaller than the electrode radius would be refused as a
+    # likely unit slip (a warning), so the default search starts above that
+    g_lo = max(0.02 * t_min, 2e-3 * r1)
+    gb = _bounds(gap_bounds, (min(g_lo, 0.5 * g_hi), g_hi), "gap_bounds")
+    _fits(r1, g0, wb[1], ts, opts, "width_bounds")
+    _fits(r1, gb[1], w0, ts, opts, "gap_bounds")
     res = 0.02 * t_min if resolution is None else v.length(resolution, "resolution")
     checks: list[GuardCheck] = []
 
@@ -638,6 +650,37 @@ def guard_design(
     w_min = _bisect(lambda w: evaluate(g0, w), wb[0], wb[1], res, pass_high=True)
     g_max = _bisect(lambda g: evaluate(g, w0), gb[0], gb[1], res, pass_high=False)
     return GuardDesign(r1, g0, w0, tgt, basis, w_min, g_max, wb, gb, res, tuple(checks))
+
+
+def _room_in_shield(opts: dict, r1: float) -> float | None:
+    """Radial room for gap + guard inside a shield (None without one)."""
+    shield = opts.get("shield")
+    if shield is None:
+        return None
+    try:
+        radius = v.length(shield[0], "shield radius")
+    except (TypeError, IndexError):
+        return None  # guarded_cell reports the malformed shield itself
+    return radius - r1
+
+
+def _fits(r1: float, g: float, w: float, ts, opts: dict, name: str) -> None:
+    """Refuse a search range whose far end cannot be built (e.g. outside the shield)."""
+    from .errors import GeometryError
+
+    try:
+        for t in ts:
+            guarded_cell(
+                electrode_radius=r1, guard_gap=g, guard_width=w, specimen_thickness=t, **opts
+            )
+    except GeometryError as exc:
+        raise InputError(
+            f"{name}: the design with guard gap {g * 1e3:.4g} mm and guard width "
+            f"{w * 1e3:.4g} mm cannot be built ({exc}); narrow {name}",
+            name=name,
+            value=(g, w),
+            unit="m",
+        ) from None
 
 
 def _bounds(value: Any, default: tuple[float, float], name: str) -> tuple[float, float]:
@@ -814,7 +857,8 @@ def edge_field(
         A solved fixture (it must carry its field).
     distance : length, optional
         For sharp edges: the radius of the circles about each edge on which the field
-        is reported; default 1 % of the smallest electrode feature (thickness, gap).
+        is reported; default 5 % of the smallest feature (an electrode's size, or the
+        spacing of its corners, e.g. a guard gap), at least 1 um.
     voltage : voltage, optional
         The test voltage, for the caution.
     samples : int
@@ -860,7 +904,7 @@ def edge_field(
     at_rho = None
     loc = (math.nan, math.nan)
     if sharp:
-        rho = _default_distance(g) if distance is None else v.length(distance, "distance")
+        rho = _default_distance(g, corners) if distance is None else v.length(distance, "distance")
         pts = []
         ang = np.linspace(0, 2 * math.pi, samples, endpoint=False)
         for cx, cy in corners:
@@ -888,15 +932,18 @@ def edge_field(
     return EdgeField(sharp, peak, peak_air, loc, rho, at_rho, volts)
 
 
-def _default_distance(g) -> float:
+def _default_distance(g, corners) -> float:
+    """5 % of the smallest feature: conductor sizes and the spacing of sharp corners."""
     sizes = []
     for c in g.conductors:
         for s in simple_shapes(c.shape):
             x0, y0, x1, y1 = s.bbox
-            for d in (x1 - x0, y1 - y0):
-                if d > 0:
-                    sizes.append(d)
-    return 0.01 * min(sizes)
+            sizes.extend(d for d in (x1 - x0, y1 - y0) if d > 0)
+    pts = np.unique(np.round(np.asarray(corners, float), 15), axis=0)
+    if len(pts) > 1:
+        d = np.hypot(*(pts[:, None, :] - pts[None, :, :]).transpose(2, 0, 1))
+        sizes.append(float(d[d > 0].min()))
+    return max(0.05 * min(sizes), 1e-6)
 
 
 def _surface_points(edge, n: int) -> np.ndarray:
