@@ -9,11 +9,17 @@ serial, so that no run inherits meshes cached by an earlier one in the same proc
 from __future__ import annotations
 
 import os
-import time
-import warnings
 
-import capbench as cb
-from capbench import sweep
+# one BLAS thread in this process too, as in the pool's and Dask's workers, so that
+# the serial baseline is not slowed by BLAS threads contending with each other
+for _name in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_name, "1")
+
+import time  # noqa: E402
+import warnings  # noqa: E402
+
+import capbench as cb  # noqa: E402
+from capbench import sweep  # noqa: E402
 
 RTOL = 1e-5
 
