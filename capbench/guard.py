@@ -36,6 +36,7 @@ from .geometry import (
     shape_edges,
     simple_shapes,
 )
+from .mesh import MEDIUM_REGION
 from .rigs import SPECIMEN, guarded_cell
 from .sweep import Progress, run
 from .units import EPS0, Q_, to_si
@@ -925,7 +926,7 @@ def edge_field(
             k = int(np.argmax(np.where(ok, E, -1)))
             peak = float(E[k])
             loc = (float(P[0, k]), float(P[1, k]))
-            air = ok & (reg == 0)
+            air = ok & (reg == MEDIUM_REGION)
             peak_air = float(E[air].max()) if air.any() else None
     if not sharp and peak is None:
         raise SolverError("no conductor surface found to evaluate the edge field on")
