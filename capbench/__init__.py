@@ -10,7 +10,9 @@ Typical use::
 
 from importlib.metadata import PackageNotFoundError, version
 
+from . import sweep
 from .capacitance import PotentialField, Solution, solve
+from .compare import Breakdown, Comparison, astm_edge_capacitance, measured_vs_ideal
 from .errors import (
     CapbenchError,
     ExtractionError,
@@ -41,6 +43,20 @@ from .geometry import (
     Rect,
     RoundedRect,
 )
+from .guard import (
+    EdgeCase,
+    EdgeField,
+    ErrorMap,
+    GuardCheck,
+    GuardDesign,
+    edge_field,
+    effective_area,
+    error_map,
+    formula_diameter,
+    gap_factor,
+    guard_check,
+    guard_design,
+)
 from .rigs import (
     Specimen,
     coaxial_cell,
@@ -51,6 +67,7 @@ from .rigs import (
     parallel_discs,
     parallel_strips,
 )
+from .sweep import SweepResult
 from .units import EPS0, Q_, ureg
 from .validate import CapbenchWarning
 
@@ -69,18 +86,25 @@ __all__ = (
     "PLANAR",
     "Q_",
     "Annulus",
+    "Breakdown",
     "CapbenchError",
     "CapbenchWarning",
     "Circle",
+    "Comparison",
     "Compound",
     "Conductor",
     "Dielectric",
+    "EdgeCase",
+    "EdgeField",
     "Enclosure",
+    "ErrorMap",
     "ExtractionError",
     "FileFormatError",
     "Fixture",
     "Geometry",
     "GeometryError",
+    "GuardCheck",
+    "GuardDesign",
     "InputError",
     "OpenSpace",
     "Plate",
@@ -92,14 +116,25 @@ __all__ = (
     "SolverError",
     "Specimen",
     "StoreError",
+    "SweepResult",
     "__version__",
+    "astm_edge_capacitance",
     "coaxial_cell",
     "coplanar_strips",
+    "edge_field",
+    "effective_area",
+    "error_map",
+    "formula_diameter",
     "four_electrode_section",
+    "gap_factor",
+    "guard_check",
+    "guard_design",
     "guarded_cell",
     "interdigitated",
+    "measured_vs_ideal",
     "parallel_discs",
     "parallel_strips",
     "solve",
+    "sweep",
     "ureg",
 )
