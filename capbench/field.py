@@ -174,10 +174,13 @@ def _curved_mapping(p: np.ndarray, t: np.ndarray, arcs: np.ndarray):
     local = ((0, 1), (1, 2), (0, 2))
 
     def mapping(X):
-        lam = np.vstack((1 - X[0] - X[1], X[0], X[1]))  # (3, nq)
+        # X (2, nq): the same reference points in every element; or (2, n, nq)
+        if X.ndim == 2:
+            X = np.broadcast_to(X[:, None, :], (2, V.shape[2], X.shape[1]))
+        lam = np.stack((1 - X[0] - X[1], X[0], X[1]))  # (3, n, nq)
         dlam = np.array([[-1.0, -1.0], [1.0, 0.0], [0.0, 1.0]])  # d lam_k / d X_b
-        x = np.einsum("akn,kq->anq", V, lam)
-        J = np.einsum("akn,kb->abn", V, dlam)[..., None] * np.ones(X.shape[1])
+        x = np.einsum("akn,knq->anq", V, lam)
+        J = np.einsum("akn,kb->abn", V, dlam)[..., None] * np.ones(X.shape[2])
         for e, (i, j) in enumerate(local):
             R = arcs[e, :, 2]
             on = R > 0
@@ -188,7 +191,7 @@ def _curved_mapping(p: np.ndarray, t: np.ndarray, arcs: np.ndarray):
             ti = np.arctan2(vi[1] - cy, vi[0] - cx)
             tj = np.arctan2(vj[1] - cy, vj[0] - cx)
             dth = np.mod(tj - ti + np.pi, 2 * np.pi) - np.pi  # the short way round
-            tau = 0.5 * (1.0 + lam[j] - lam[i])[None, :]
+            tau = 0.5 * (1.0 + lam[j, on] - lam[i, on])
             th = ti + tau * dth
             Rn = R[on][:, None]
             d = np.array([cx + Rn * np.cos(th), cy + Rn * np.sin(th)]) - (vi * (1 - tau) + vj * tau)
@@ -196,7 +199,7 @@ def _curved_mapping(p: np.ndarray, t: np.ndarray, arcs: np.ndarray):
             w = tau * (1 - tau)
             q = d / w
             qp = (dp * w - d * (1 - 2 * tau)) / w**2
-            li, lj = lam[i][None, None, :], lam[j][None, None, :]
+            li, lj = lam[i, on][None], lam[j, on][None]
             x[:, on] += li * lj * q
             df_di = lj * q - 0.5 * li * lj * qp
             df_dj = li * q + 0.5 * li * lj * qp
@@ -317,6 +320,85 @@ def gradients_at(
         x[:, curved] = xc
         g[:, curved] = np.einsum("banq,bnq->anq", Ji, gref[:, curved])
     return x, g
+
+
+def locate(asm: Assembly, P: np.ndarray, candidates: int = 12):
+    """Element and reference coordinates of points P (2, n), through the exact element
+    maps (Newton on curved elements). Points in no element get cell -1."""
+    from scipy.spatial import cKDTree
+
+    m = asm.skmesh
+    if not hasattr(asm, "_centroid_tree"):
+        asm._centroid_tree = cKDTree(np.mean(m.p[:, m.t], axis=1).T)
+    k = min(candidates, m.t.shape[1])
+    n = P.shape[1]
+    _, near = asm._centroid_tree.query(P.T, k)
+    near = np.asarray(near).reshape(n, -1)
+    arcs = _element_arcs(asm.mesh, m)
+    cells = np.full(n, -1)
+    X = np.zeros((2, n))
+    for j in range(near.shape[1]):
+        todo = np.nonzero(cells < 0)[0]
+        if todo.size == 0:
+            break
+        c = near[todo, j]
+        Xj = _reference_point(m.p, m.t[:, c], arcs[:, c], P[:, todo])
+        inside = np.all(np.isfinite(Xj), axis=0)
+        inside[inside] = (
+            np.minimum(np.minimum(Xj[0, inside], Xj[1, inside]), 1 - Xj.sum(0)[inside]) >= -1e-9
+        )
+        cells[todo[inside]] = c[inside]
+        X[:, todo[inside]] = Xj[:, inside]
+    return cells, X
+
+
+def _reference_point(p, t, arcs, P) -> np.ndarray:
+    """Reference coordinates of P (2, m) in elements t (3, m): the straight-sided guess,
+    then Newton on the curved map; NaN where Newton does not settle."""
+    a0 = p[:, t[0]]
+    d1, d2, q = p[:, t[1]] - a0, p[:, t[2]] - a0, P - a0
+    det = d1[0] * d2[1] - d1[1] * d2[0]
+    X = np.vstack(((q[0] * d2[1] - q[1] * d2[0]) / det, (d1[0] * q[1] - d1[1] * q[0]) / det))
+    curved = np.any(arcs[:, :, 2] > 0, axis=0)
+    if not curved.any():
+        return X
+    mapping = _curved_mapping(p, t[:, curved], arcs[:, curved])
+    Xc = X[:, curved][:, :, None]
+    step = np.zeros_like(Xc)
+    for _ in range(20):
+        x, J = mapping(Xc)
+        r = P[:, curved][:, :, None] - x
+        det = J[0, 0] * J[1, 1] - J[0, 1] * J[1, 0]
+        step = np.array(
+            [(J[1, 1] * r[0] - J[0, 1] * r[1]) / det, (J[0, 0] * r[1] - J[1, 0] * r[0]) / det]
+        )
+        Xc = Xc + step
+        if np.max(np.abs(step)) < 1e-13:
+            break
+    Xc = Xc[:, :, 0]
+    Xc[:, np.any(np.abs(step[:, :, 0]) > 1e-8, axis=0)] = np.nan
+    X[:, curved] = Xc
+    return X
+
+
+def gradient_at(asm: Assembly, u: np.ndarray, cells: np.ndarray, X: np.ndarray) -> np.ndarray:
+    """grad u (2, n) at reference points X (2, n) of elements ``cells`` (n,)."""
+    ref = _reference(asm.degree)
+    m = asm.skmesh
+    t = m.t[:, cells]
+    phi = np.array([ref.elem.lbasis(X, i)[1] for i in range(ref.nb)])  # (nb, 2, n)
+    gref = np.einsum("in,ibn->bn", u[asm.dofs.element_dofs[:, cells]], phi)
+    _, _, _, Binv = _affine(m.p, t)
+    g = np.einsum("ban,bn->an", Binv, gref)
+    arcs = _element_arcs(asm.mesh, m)[:, cells]
+    curved = np.any(arcs[:, :, 2] > 0, axis=0)
+    if curved.any():
+        _, J = _curved_mapping(m.p, t[:, curved], arcs[:, curved])(X[:, curved][:, :, None])
+        J = J[..., 0]
+        det = J[0, 0] * J[1, 1] - J[0, 1] * J[1, 0]
+        Ji = np.array([[J[1, 1], -J[0, 1]], [-J[1, 0], J[0, 0]]]) / det
+        g[:, curved] = np.einsum("ban,bn->an", Ji, gref[:, curved])
+    return g
 
 
 def assemble(mesh: TriMesh, degree: int, n_conductors: int) -> Assembly:

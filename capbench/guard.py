@@ -978,16 +978,11 @@ def _off_surface(P: np.ndarray, g) -> np.ndarray:
 
 
 class _GradientProbe:
-    """|grad u| of the terminal drive at arbitrary points, from the degree-p solution.
+    """|grad u| of the terminal drive at arbitrary points, from the degree-p solution,
+    located and differentiated through the engine's exact element maps (so points
+    beside curved conductor faces find the element they really lie in)."""
 
-    Points are located with a k-d tree of element centroids and confirmed with the
-    element's own (possibly curved) mapping, so points beside curved conductor faces
-    find the element they really lie in.
-    """
-
-    def __init__(self, sol: Solution, candidates: int = 12):
-        from scipy.spatial import cKDTree
-
+    def __init__(self, sol: Solution):
         from .capacitance import drive_potentials
 
         fs = sol.field
@@ -996,72 +991,22 @@ class _GradientProbe:
             fs.maxwell_energy, sol.terminals, fx.high, fx.low, fx.connection, sol.grounded
         )
         self.u = np.real(fs.potentials @ V)
-        asm = fs.assembly
-        self.basis = asm.basis()
-        self.region = asm.mesh.region
-        m = asm.skmesh
-        self.p, self.t = m.p, m.t
-        self.curved = bool(asm.mesh.curved)
-        self.tree = cKDTree(np.mean(m.p[:, m.t], axis=1).T)
-        self.k = min(candidates, m.t.shape[1])
+        self.asm = fs.assembly
+        self.region = self.asm.mesh.region
 
     def __call__(self, P: np.ndarray):
+        from . import field as fe
+
         n = P.shape[1]
-        b = self.basis
-        _, near = self.tree.query(P.T, self.k)
-        near = near.reshape(n, -1)
-        cells = np.full(n, -1)
-        X = np.zeros((2, n))
-        for j in range(near.shape[1]):
-            todo = np.nonzero(cells < 0)[0]
-            if todo.size == 0:
-                break
-            c = near[todo, j]
-            Xj = self._reference_point(P[:, todo], c)
-            inside = np.all(np.isfinite(Xj), axis=0)
-            inside[inside] = (
-                np.minimum(np.minimum(Xj[0, inside], Xj[1, inside]), 1 - Xj.sum(0)[inside]) >= -1e-9
-            )
-            cells[todo[inside]] = c[inside]
-            X[:, todo[inside]] = Xj[:, inside]
+        cells, X = fe.locate(self.asm, P)
         ok = cells >= 0
         E = np.zeros(n)
         reg = np.full(n, -99)
-        if not ok.any():
-            return E, reg, ok
-        idx = np.nonzero(ok)[0]
-        c = cells[idx]
-        Xr = X[:, idx, None]
-        grad = np.zeros((2, idx.size))
-        for k in range(b.Nbfun):
-            phi = b.elem.gbasis(b.mapping, Xr, k, tind=c)[0]
-            grad += phi.grad[:, :, 0] * self.u[b.element_dofs[k, c]]
-        E[idx] = np.hypot(grad[0], grad[1])
-        reg[idx] = self.region[c]
+        if ok.any():
+            g = fe.gradient_at(self.asm, self.u, cells[ok], X[:, ok])
+            E[ok] = np.hypot(g[0], g[1])
+            reg[ok] = self.region[cells[ok]]
         return E, reg, ok
-
-    def _reference_point(self, P: np.ndarray, c: np.ndarray) -> np.ndarray:
-        """Reference coordinates of points P (2, m) in elements c: the straight-sided
-        barycentric guess, then Newton on the element's (possibly curved) mapping,
-        unclipped so that a point outside the element shows as such (NaN if Newton
-        does not settle)."""
-        p, t, b = self.p, self.t, self.basis
-        a0 = p[:, t[0, c]]
-        d1, d2, q = p[:, t[1, c]] - a0, p[:, t[2, c]] - a0, P - a0
-        det = d1[0] * d2[1] - d1[1] * d2[0]
-        X = np.vstack(((q[0] * d2[1] - q[1] * d2[0]) / det, (d1[0] * q[1] - d1[1] * q[0]) / det))
-        if not self.curved:
-            return X
-        Xq = X[:, :, None]
-        for _ in range(12):
-            F = b.mapping.F(Xq, tind=c)
-            dX = np.einsum("ijk,jk->ik", b.mapping.invDF(Xq, tind=c)[:, :, :, 0], (P - F[:, :, 0]))
-            Xq = Xq + dX[:, :, None]
-            if np.max(np.abs(dX)) < 1e-13:
-                break
-        X = Xq[:, :, 0]
-        X[:, np.any(np.abs(dX) > 1e-8, axis=0)] = np.nan
-        return X
 
 
 __all__ = [

@@ -284,7 +284,9 @@ def test_peak_field_on_a_round_conductor_matches_closed_form():
     geom = Geometry(
         PLANAR, (Conductor("inner", Circle(0, 0, a)), Conductor("outer", Annulus(0, 0, b, 1.2 * b)))
     )
-    sol = cb.solve(Fixture(geom, high="inner", low="outer", connection=PAIR), rtol=1e-6)
+    # the pointwise gradient converges more slowly than the energy: rtol 1e-8 puts the
+    # surface field within a few 1e-6 (at rtol 1e-6 it is within about 2e-4)
+    sol = cb.solve(Fixture(geom, high="inner", low="outer", connection=PAIR), rtol=1e-8)
     ef = guard.edge_field(sol)
     assert not ef.sharp
     assert ef.peak == pytest.approx(1 / (a * math.log(b / a)), rel=1e-4)
