@@ -459,7 +459,9 @@ class AccuracySpec:
         return cls(pct, offset, distribution)
 
     def half_width(self, reading: Any) -> Any:
-        """Bound of the error of ``reading`` (a quantity or a number)."""
+        """Bound of the error of ``reading`` (a quantity or a number, possibly uncertain)."""
+        if isinstance(reading, AffineScalarFunc):  # a dimensionless value with uncertainty
+            reading = reading.n
         q = parse_quantity(reading, "reading")
         mag = q.magnitude.n if isinstance(q.magnitude, AffineScalarFunc) else q.magnitude
         rel = self.percent / 100.0 * abs(mag)
@@ -498,7 +500,8 @@ class AccuracySpec:
         takes readings that are later divided or subtracted (the common error then
         cancels as it does on the bench).
         """
-        first = parse_quantity(readings[0], "reading")
+        r0 = readings[0].n if isinstance(readings[0], AffineScalarFunc) else readings[0]
+        first = parse_quantity(r0, "reading")
         g: Any = 0.0
         if self.percent > 0:
             g = type_b(
@@ -648,7 +651,7 @@ class Budget:
         """The budget as aligned text."""
         unit = f" {self.unit}" if self.unit else ""
         head = (
-            f"{'input':<34} {'value':>14} {'u(x)':>11} {'distribution':<12} {'type':<4} "
+            f"{'input':<40} {'value':>14} {'u(x)':>11} {'distribution':<12} {'type':<4} "
             f"{'dof':>6} {'c':>12} {'c u(x)':>11} {'share':>7}"
         )
         lines = [f"Uncertainty budget of {self.name}", head, "-" * len(head)]
@@ -656,14 +659,14 @@ class Budget:
             dof = "inf" if math.isinf(r.dof) else f"{r.dof:.0f}"
             cu = f"{r.sensitivity:.{digits}g}"
             lines.append(
-                f"{r.name[:34]:<34} {r.value:>14.7g} {r.u:>11.{digits}g} "
+                f"{r.name[:40]:<40} {r.value:>14.7g} {r.u:>11.{digits}g} "
                 f"{r.distribution:<12} {r.kind:<4} {dof:>6} {cu:>12} "
                 f"{r.contribution:>11.{digits}g} {100 * r.share:>6.2f}%"
                 + (f"  [{r.unit}]" if r.unit else "")
             )
         if self.correlation_share:
             lines.append(
-                f"{'(correlation terms)':<34} {'':>14} {'':>11} {'':<12} {'':<4} {'':>6} "
+                f"{'(correlation terms)':<40} {'':>14} {'':>11} {'':<12} {'':<4} {'':>6} "
                 f"{'':>12} {'':>11} {100 * self.correlation_share:>6.2f}%"
             )
         dof = "inf" if math.isinf(self.dof) else f"{self.dof:.3g}"
