@@ -10,6 +10,8 @@ Typical use::
 
 from importlib.metadata import PackageNotFoundError, version
 
+# extraction of permittivity and loss, uncertainty, reference materials, measurement files
+from . import extract, files, materials, uncertainty
 from .capacitance import PotentialField, Solution, solve
 from .errors import (
     CapbenchError,
@@ -20,6 +22,17 @@ from .errors import (
     SolverError,
     StoreError,
 )
+from .extract import (
+    Extraction,
+    Point,
+    air_gap,
+    contacting,
+    guard_effective_area,
+    liquid,
+    micrometer,
+    two_fluid,
+)
+from .files import Measurement, read_measurement
 from .geometry import (
     AXISYMMETRIC,
     DIRECT,
@@ -41,6 +54,7 @@ from .geometry import (
     Rect,
     RoundedRect,
 )
+from .materials import air_eps_r, reference_eps_r, water_eps_r
 from .rigs import (
     Specimen,
     coaxial_cell,
@@ -50,6 +64,16 @@ from .rigs import (
     interdigitated,
     parallel_discs,
     parallel_strips,
+)
+from .uncertainty import (
+    AccuracySpec,
+    Budget,
+    MonteCarloResult,
+    budget,
+    monte_carlo,
+    type_a,
+    type_a_correlated,
+    type_b,
 )
 from .units import EPS0, Q_, ureg
 from .validate import CapbenchWarning
@@ -68,7 +92,9 @@ __all__ = (
     "PAIR",
     "PLANAR",
     "Q_",
+    "AccuracySpec",
     "Annulus",
+    "Budget",
     "CapbenchError",
     "CapbenchWarning",
     "Circle",
@@ -76,14 +102,18 @@ __all__ = (
     "Conductor",
     "Dielectric",
     "Enclosure",
+    "Extraction",
     "ExtractionError",
     "FileFormatError",
     "Fixture",
     "Geometry",
     "GeometryError",
     "InputError",
+    "Measurement",
+    "MonteCarloResult",
     "OpenSpace",
     "Plate",
+    "Point",
     "Polygon",
     "PotentialField",
     "Rect",
@@ -93,13 +123,32 @@ __all__ = (
     "Specimen",
     "StoreError",
     "__version__",
+    "air_eps_r",
+    "air_gap",
+    "budget",
     "coaxial_cell",
+    "contacting",
     "coplanar_strips",
+    "extract",
+    "files",
     "four_electrode_section",
+    "guard_effective_area",
     "guarded_cell",
     "interdigitated",
+    "liquid",
+    "materials",
+    "micrometer",
+    "monte_carlo",
     "parallel_discs",
     "parallel_strips",
+    "read_measurement",
+    "reference_eps_r",
     "solve",
+    "two_fluid",
+    "type_a",
+    "type_a_correlated",
+    "type_b",
+    "uncertainty",
     "ureg",
+    "water_eps_r",
 )

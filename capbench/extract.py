@@ -1183,6 +1183,12 @@ def _point(
 ) -> Point:
     re = eps_u.re
     where = f" at {freq:.6g} Hz" if freq is not None else ""
+    if not EPS_MIN <= _n(re) <= EPS_MAX:
+        raise ExtractionError(
+            f"the {label} readings{where} give eps_r = {_n(re):.6g}, outside {EPS_MIN:g} to "
+            f"{EPS_MAX:g}: check the readings' units and order, the thickness and the area",
+            eps_r=_n(re),
+        )
     if lossy:
         loss = -eps_u.im
         tan = loss / re

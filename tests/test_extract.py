@@ -186,3 +186,25 @@ def test_uncertain_readings_flow_through_closed_forms():
     b = U.budget(eps, "eps")
     assert {r.name for r in b.rows} == {"C0 bridge", "C bridge", "thickness"}
     assert b.shares_total == pytest.approx(1.0, abs=1e-12)
+
+
+def test_methods_without_fem_give_the_closed_forms():
+    # fem=False: the method's result is its closed form (ASTM D150 formulas above)
+    fx = cb.guarded_cell(
+        electrode_radius="25 mm", guard_gap="0.5 mm", guard_width="10 mm",
+        specimen_thickness="2 mm", unguarded_radius="50 mm",
+    )  # fmt: skip
+    res = X.contacting(fx, "20.5 pF", dissipation=3e-4, fem=False)
+    area = X.guard_effective_area("25 mm", "0.5 mm", "2 mm").to("m**2").magnitude
+    assert res[0].eps_r.n == pytest.approx(20.5e-12 * 2e-3 / (EPS0 * area), rel=1e-12)
+    assert res[0].tan_delta.n == pytest.approx(3e-4, rel=1e-9)
+    assert res.solves == 0 and res[0].correction == 0.0
+    gapped = cb.guarded_cell(
+        electrode_radius="25 mm", guard_gap="0.5 mm", guard_width="10 mm",
+        specimen_thickness="2 mm", unguarded_radius="50 mm", air_gap="1 mm",
+    )  # fmt: skip
+    res = X.air_gap(gapped, "14 pF", "17 pF", fem=False)
+    assert res[0].eps_r.n == pytest.approx(X.ideal_air_gap("14 pF", "17 pF", "2 mm", "3 mm"))
+    # a reading below the vacuum capacitance has no root >= 1, with or without the FEM
+    with pytest.raises(cb.ExtractionError, match="outside 1 to 10000"):
+        X.contacting(fx, "5 pF", fem=False)
