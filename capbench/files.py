@@ -267,8 +267,9 @@ def _accuracy(table: _Table, key: str, required: bool = True) -> AccuracySpec | 
     try:
         return AccuracySpec.parse(raw)
     except CapbenchError as exc:
-        raise FileFormatError(f"{table.where(key)} = {raw!r}: {exc}", file=str(table.path),
-                              value=raw) from None  # fmt: skip
+        raise FileFormatError(
+            f"{table.where(key)} = {raw!r}: {exc}", file=str(table.path), value=raw
+        ) from None
 
 
 def _fixture(table: _Table) -> Fixture:
@@ -311,8 +312,9 @@ def read_readings(path: str | Path) -> tuple[Reading, ...]:
     rows = list(csv.reader([ln for _, ln in numbered]))
     line_of = [i for i, _ in numbered]
     if len(rows) < 2:
-        raise FileFormatError(f"{path.name}: needs a header row and at least one reading",
-                              file=str(path))  # fmt: skip
+        raise FileFormatError(
+            f"{path.name}: needs a header row and at least one reading", file=str(path)
+        )
     columns = []
     for j, head in enumerate(rows[0]):
         name, _, unit = head.strip().partition("[")

@@ -191,18 +191,25 @@ def test_uncertain_readings_flow_through_closed_forms():
 def test_methods_without_fem_give_the_closed_forms():
     # fem=False: the method's result is its closed form (ASTM D150 formulas above)
     fx = cb.guarded_cell(
-        electrode_radius="25 mm", guard_gap="0.5 mm", guard_width="10 mm",
-        specimen_thickness="2 mm", unguarded_radius="50 mm",
-    )  # fmt: skip
+        electrode_radius="25 mm",
+        guard_gap="0.5 mm",
+        guard_width="10 mm",
+        specimen_thickness="2 mm",
+        unguarded_radius="50 mm",
+    )
     res = X.contacting(fx, "20.5 pF", dissipation=3e-4, fem=False)
     area = X.guard_effective_area("25 mm", "0.5 mm", "2 mm").to("m**2").magnitude
     assert res[0].eps_r.n == pytest.approx(20.5e-12 * 2e-3 / (EPS0 * area), rel=1e-12)
     assert res[0].tan_delta.n == pytest.approx(3e-4, rel=1e-9)
     assert res.solves == 0 and res[0].correction == 0.0
     gapped = cb.guarded_cell(
-        electrode_radius="25 mm", guard_gap="0.5 mm", guard_width="10 mm",
-        specimen_thickness="2 mm", unguarded_radius="50 mm", air_gap="1 mm",
-    )  # fmt: skip
+        electrode_radius="25 mm",
+        guard_gap="0.5 mm",
+        guard_width="10 mm",
+        specimen_thickness="2 mm",
+        unguarded_radius="50 mm",
+        air_gap="1 mm",
+    )
     res = X.air_gap(gapped, "14 pF", "17 pF", fem=False)
     assert res[0].eps_r.n == pytest.approx(X.ideal_air_gap("14 pF", "17 pF", "2 mm", "3 mm"))
     # a reading below the vacuum capacitance has no root >= 1, with or without the FEM

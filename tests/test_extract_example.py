@@ -65,8 +65,11 @@ def test_example_inputs_follow_the_measurement_file(example):
     s_mean = np.std(m.thickness_readings, ddof=1) / math.sqrt(5) * 1e3
     assert t.s == pytest.approx(math.hypot(s_mean, 1.5e-3 / math.sqrt(3)), rel=1e-9)
     names = {r.name for r in example.RESULT[example.AT_1KHZ].budget.rows}
-    assert {"micrometer calibration", "bridge C accuracy 1000 Hz",
-            "electrode radius (drawing tolerance)"} <= names  # fmt: skip
+    assert {
+        "micrometer calibration",
+        "bridge C accuracy 1000 Hz",
+        "electrode radius (drawing tolerance)",
+    } <= names
 
 
 def test_example_monte_carlo_and_report(example):

@@ -65,10 +65,14 @@ def contacting_result(guarded):
     cd = [reading(guarded, e) for e in EPS_F]
     t = U.type_a(["2.001 mm", "1.999 mm", "2.000 mm", "2.0015 mm", "1.9985 mm"], "thickness")
     spec = U.AccuracySpec.parse("0.05 % of reading + 0.002 pF")
-    caps = [spec.apply(cb.Q_(c * 1e12, "pF"), f"bridge C at {f:g} Hz") for (c, _), f in
-            zip(cd, FREQ, strict=True)]  # fmt: skip
-    ds = [U.type_b(d, half_width=2e-5, name=f"bridge D at {f:g} Hz") for (_, d), f in
-          zip(cd, FREQ, strict=True)]  # fmt: skip
+    caps = [
+        spec.apply(cb.Q_(c * 1e12, "pF"), f"bridge C at {f:g} Hz")
+        for (c, _), f in zip(cd, FREQ, strict=True)
+    ]
+    ds = [
+        U.type_b(d, half_width=2e-5, name=f"bridge D at {f:g} Hz")
+        for (_, d), f in zip(cd, FREQ, strict=True)
+    ]
     res = X.contacting(guarded, caps, dissipation=ds, frequency=FREQ, thickness=t, rtol=RTOL)
     return res, cd, t
 
@@ -216,9 +220,16 @@ def test_micrometer_discs_with_residual_difference():
     c1, d1 = reading(loaded, eps)
     c2 = cb.solve(cb.parallel_discs(radius="20 mm", gap=s2), rtol=RTOL).terminal.real
     res = X.micrometer(
-        loaded, thickness=t, loaded_spacing=t, empty_spacing=s2, capacitance=c1,
-        empty_capacitance=c2, dissipation=d1, empty_dissipation=0.0, rtol=RTOL,
-    )  # fmt: skip
+        loaded,
+        thickness=t,
+        loaded_spacing=t,
+        empty_spacing=s2,
+        capacitance=c1,
+        empty_capacitance=c2,
+        dissipation=d1,
+        empty_dissipation=0.0,
+        rtol=RTOL,
+    )
     p = res[0]
     # the test's empty cell has no specimen region; the method's has one at eps_r 1:
     # different meshes, discretisation differences of ~1e-8
@@ -242,8 +253,18 @@ def two_fluid_case():
     r1, r2 = r1 + stray, r2 + stray
     # the method is given the cell with a nominal (wrong) thickness: it fits it
     nominal = cb.parallel_discs(radius="20 mm", gap="2 mm", specimen=cb.Specimen("1.52 mm", 2.3))
-    res = X.two_fluid(nominal, c1, r1, c2, r2, eps_fluid1=e1, eps_fluid2=e2, dissipation1=d1,
-                      dissipation2=d2, rtol=RTOL)  # fmt: skip
+    res = X.two_fluid(
+        nominal,
+        c1,
+        r1,
+        c2,
+        r2,
+        eps_fluid1=e1,
+        eps_fluid2=e2,
+        dissipation1=d1,
+        dissipation2=d2,
+        rtol=RTOL,
+    )
     return res, eps, stray
 
 

@@ -210,9 +210,18 @@ def test_welch_satterthwaite_gum_g41_example():
 
 @pytest.mark.parametrize(
     ("dof", "k"),
-    [(1, 12.71), (2, 4.30), (3, 3.18), (4, 2.78), (5, 2.57), (10, 2.23), (20, 2.09),
-     (50, 2.01), (math.inf, 1.96)],
-)  # fmt: skip
+    [
+        (1, 12.71),
+        (2, 4.30),
+        (3, 3.18),
+        (4, 2.78),
+        (5, 2.57),
+        (10, 2.23),
+        (20, 2.09),
+        (50, 2.01),
+        (math.inf, 1.96),
+    ],
+)
 def test_coverage_factor_gum_table_g2(dof, k):
     # GUM table G.2, p = 95 % (from memory)
     assert round(U.coverage_factor(dof, 0.95), 2) == k
@@ -251,8 +260,9 @@ def _irwin_hall_cdf(x: float, n: int) -> float:
 
 
 def _sum_of_rectangles(seed=1, widths=(1.0, 1.0, 1.0, 1.0), **kw):
-    xs = [U.type_b(0.0, half_width=w * math.sqrt(3), name=f"X{i + 1}") for i, w in
-          enumerate(widths)]  # fmt: skip
+    xs = [
+        U.type_b(0.0, half_width=w * math.sqrt(3), name=f"X{i + 1}") for i, w in enumerate(widths)
+    ]
     args = {f"X{i + 1}": x for i, x in enumerate(xs)}
     y = sum(xs)
     return U.monte_carlo(lambda a: sum(a.values()), args, rng=seed, linear=y, **kw)
@@ -263,9 +273,11 @@ def test_jcgm101_92_normal_inputs():
     # [-3.9, 3.9]; exact: u = 2, interval +-1.95996 * 2
     xs = [U.type_b(0.0, u=1.0, name=f"X{i}") for i in range(4)]
     res = U.monte_carlo(
-        lambda a: sum(a.values()), {f"X{i}": x for i, x in enumerate(xs)}, rng=3,
+        lambda a: sum(a.values()),
+        {f"X{i}": x for i, x in enumerate(xs)},
+        rng=3,
         linear=sum(xs),
-    )  # fmt: skip
+    )
     assert res.converged
     assert abs(res.u - 2.0) <= res.delta
     assert res.low == pytest.approx(-3.92, abs=2 * res.delta)
@@ -306,8 +318,9 @@ def test_jcgm101_92_rectangular_inputs_different_widths():
         return _irwin_hall_cdf((x + 3 * a) / (2 * a), 3) if -3 * a < x < 3 * a else float(x > 0)
 
     def cdf(y):
-        return integrate.quad(lambda x: cdf3(y - x) / (2 * A), -A, A,
-                              points=[y - 3 * a, y + 3 * a], limit=200)[0]  # fmt: skip
+        return integrate.quad(
+            lambda x: cdf3(y - x) / (2 * A), -A, A, points=[y - 3 * a, y + 3 * a], limit=200
+        )[0]
 
     q_exact = optimize.brentq(lambda y: cdf(y) - 0.975, 10, 25)
     assert round(q_exact, 1) == 17.0
@@ -377,8 +390,7 @@ def mass_mc():
     y = (inputs["mRc"] + inputs["dmRc"]) * (
         1 + (inputs["rho_a"] - 1.2) * (1 / inputs["rho_W"] - 1 / inputs["rho_R"])
     ) - M_NOMINAL
-    fixed = U.monte_carlo(_mass_model, inputs, rng=2008, adaptive=False, trials=4_000_000,
-                          linear=y)  # fmt: skip
+    fixed = U.monte_carlo(_mass_model, inputs, rng=2008, adaptive=False, trials=4_000_000, linear=y)
     adaptive = U.monte_carlo(_mass_model, inputs, rng=101, linear=y)
     return y, fixed, adaptive
 
@@ -466,5 +478,10 @@ def test_bad_inputs_raise_clear_errors():
     with pytest.raises(ValueError, match="positive semi-definite"):
         U.correlated([1, 2], [[1, 2], [2, 1]], ["a", "b"])
     with pytest.raises(cb.InputError, match="non-finite"), np.errstate(invalid="ignore"):
-        U.monte_carlo(lambda a: np.log(a["x"]), {"x": U.type_b(0.0, u=1.0, name="x")},
-                      rng=1, adaptive=False, trials=1000)  # fmt: skip
+        U.monte_carlo(
+            lambda a: np.log(a["x"]),
+            {"x": U.type_b(0.0, u=1.0, name="x")},
+            rng=1,
+            adaptive=False,
+            trials=1000,
+        )
