@@ -900,10 +900,11 @@ class _Model:
 class Point:
     """The result at one frequency.
 
-    ``eps_r``: eps' (a ufloat); ``eps_loss``: eps'' and ``tan_delta`` = eps''/eps'
-    where loss was read; ``*_ideal``: the closed parallel-plate form's values from the
-    same readings; ``budget`` / ``loss_budget``: uncertainty budgets of eps' and tan
-    delta; ``capacitance``: the solved fixture's complex capacitance at the root (SI),
+    ``eps_r``: eps' (a ufloat: dimensionless results are not wrapped in quantities);
+    ``eps_loss``: eps'' and ``tan_delta`` = eps''/eps' where loss was read;
+    ``*_ideal``: the closed parallel-plate form's values from the same readings;
+    ``budget`` / ``loss_budget``: uncertainty budgets of eps' and tan delta;
+    ``capacitance``: the solved fixture's complex capacitance at the root (SI),
     ``sensitivity``: dC/d eps_r there.
     """
 
@@ -1063,6 +1064,11 @@ class Extraction:
             raise InputError(f"quantity = {quantity!r}; valid: 'eps_r', 'tan_delta'")
         if pt.model is None:
             raise InputError(f"{self.method}: no closed-form model to sample")
+        if y.s == 0:
+            raise InputError(
+                f"{self.method}: the result has no uncertainty (every reading and dimension "
+                "was given as exact); give them with their uncertainties to cross-check"
+            )
         args = dict(pt.model.arguments)
         x0 = {k: _n(v) for k, v in args.items()}
 
