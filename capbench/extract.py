@@ -742,8 +742,9 @@ class _Fem:
         if key not in self._solves:
             if e.imag or m.imag:
                 # SuperLU's complex kernels call BLAS on small blocks; with OpenBLAS
-                # threads they ran 60 times slower here than on one thread (42k unknowns:
-                # 17 s against 0.27 s), so complex factorisations run single-threaded
+                # threads they ran 10 to 60 times slower here than on one thread (42k
+                # unknowns: 17 s against 0.27 s; benchmarks/extraction_speed.py), so
+                # complex factorisations run single-threaded
                 with threadpool_limits(limits=1, user_api="blas"):
                     sol = solve(f2, self.rtol)
             else:

@@ -201,7 +201,9 @@ def type_a(readings: Iterable[Any], name: str, unit: str | None = None, note: st
     -----
     q_bar = (1/n) sum q_k, s^2(q) = 1/(n-1) sum (q_k - q_bar)^2, u(q_bar) = s(q)/sqrt(n),
     nu = n - 1 (GUM 4.2.1 to 4.2.3, 4.2.6). For Monte Carlo the input is a scaled and
-    shifted t distribution with n - 1 degrees of freedom (JCGM 101 6.4.9).
+    shifted t distribution with n - 1 degrees of freedom (JCGM 101 6.4.9); its variance
+    is (n-1)/(n-3) u^2, finite only for n > 3, so with 2 or 3 readings a Monte Carlo u(y)
+    dominated by this input is not defined (its coverage interval still is).
     """
     x, target = _magnitudes(readings, unit, name)
     n = x.size
