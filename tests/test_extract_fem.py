@@ -155,7 +155,9 @@ def test_budget_shares_sum_to_one(contacting_result):
 def test_monte_carlo_cross_check_of_an_extraction(contacting_result):
     res, _cd, _t = contacting_result
     mc = res.monte_carlo(1, rng=5, adaptive=False, trials=200_000)
-    assert mc.value == pytest.approx(res[1].eps_r.n, abs=3 * res[1].eps_r.s / math.sqrt(2e5) * 3)
+    # the hybrid model's mean sits at the result (nonlinearity is second order here):
+    # within five Monte Carlo standard errors
+    assert mc.value == pytest.approx(res[1].eps_r.n, abs=5 * mc.u / math.sqrt(mc.trials))
     # the type A thickness (4 dof) is sampled from t_4, whose variance is 2 u^2
     # (JCGM 101 6.4.9): the Monte Carlo u exceeds the linear one
     assert mc.u > res[1].eps_r.s
