@@ -10,7 +10,8 @@ Typical use::
 
 from importlib.metadata import PackageNotFoundError, version
 
-from . import sweep
+# extraction of permittivity and loss, uncertainty, reference materials, measurement files
+from . import extract, files, materials, sweep, uncertainty
 from .capacitance import PotentialField, Solution, solve
 from .compare import Breakdown, Comparison, astm_edge_capacitance, measured_vs_ideal
 from .errors import (
@@ -22,6 +23,17 @@ from .errors import (
     SolverError,
     StoreError,
 )
+from .extract import (
+    Extraction,
+    Point,
+    air_gap,
+    contacting,
+    guard_effective_area,
+    liquid,
+    micrometer,
+    two_fluid,
+)
+from .files import Measurement, read_measurement
 from .geometry import (
     AXISYMMETRIC,
     DIRECT,
@@ -57,6 +69,7 @@ from .guard import (
     guard_check,
     guard_design,
 )
+from .materials import air_eps_r, reference_eps_r, water_eps_r
 from .rigs import (
     Specimen,
     coaxial_cell,
@@ -68,6 +81,16 @@ from .rigs import (
     parallel_strips,
 )
 from .sweep import SweepResult
+from .uncertainty import (
+    AccuracySpec,
+    Budget,
+    MonteCarloResult,
+    budget,
+    monte_carlo,
+    type_a,
+    type_a_correlated,
+    type_b,
+)
 from .units import EPS0, Q_, ureg
 from .validate import CapbenchWarning
 
@@ -85,8 +108,10 @@ __all__ = (
     "PAIR",
     "PLANAR",
     "Q_",
+    "AccuracySpec",
     "Annulus",
     "Breakdown",
+    "Budget",
     "CapbenchError",
     "CapbenchWarning",
     "Circle",
@@ -98,6 +123,7 @@ __all__ = (
     "EdgeField",
     "Enclosure",
     "ErrorMap",
+    "Extraction",
     "ExtractionError",
     "FileFormatError",
     "Fixture",
@@ -106,8 +132,11 @@ __all__ = (
     "GuardCheck",
     "GuardDesign",
     "InputError",
+    "Measurement",
+    "MonteCarloResult",
     "OpenSpace",
     "Plate",
+    "Point",
     "Polygon",
     "PotentialField",
     "Rect",
@@ -118,23 +147,42 @@ __all__ = (
     "StoreError",
     "SweepResult",
     "__version__",
+    "air_eps_r",
+    "air_gap",
     "astm_edge_capacitance",
+    "budget",
     "coaxial_cell",
+    "contacting",
     "coplanar_strips",
     "edge_field",
     "effective_area",
     "error_map",
+    "extract",
+    "files",
     "formula_diameter",
     "four_electrode_section",
     "gap_factor",
     "guard_check",
     "guard_design",
+    "guard_effective_area",
     "guarded_cell",
     "interdigitated",
+    "liquid",
+    "materials",
     "measured_vs_ideal",
+    "micrometer",
+    "monte_carlo",
     "parallel_discs",
     "parallel_strips",
+    "read_measurement",
+    "reference_eps_r",
     "solve",
     "sweep",
+    "two_fluid",
+    "type_a",
+    "type_a_correlated",
+    "type_b",
+    "uncertainty",
     "ureg",
+    "water_eps_r",
 )
