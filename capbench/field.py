@@ -75,6 +75,25 @@ def shell_tensor(x: np.ndarray, shell: Shell, axisymmetric: bool) -> np.ndarray:
     return np.array([[a00, a01], [a01, a11]])
 
 
+def triangle_quadrature(order: int) -> tuple[np.ndarray, np.ndarray]:
+    """Points (2, n) and weights on the reference triangle, exact to ``order``.
+
+    scikit-fem's tabulated rules where it has them; beyond, the collapsed (Duffy)
+    product of Gauss-Legendre rules: x = s, y = t (1 - s), weight (1 - s)
+    (e.g. G. Karniadakis and S. Sherwin, Spectral/hp Element Methods, 2nd ed., 2005,
+    section 4.1; from memory for the section).
+    """
+    try:
+        return get_quadrature(RefTri, order)
+    except NotImplementedError:
+        n = order // 2 + 2
+        g, w = np.polynomial.legendre.leggauss(n)
+        g, w = 0.5 * (g + 1), 0.5 * w
+        s, t = np.meshgrid(g, g, indexing="ij")
+        ws = np.outer(w, w) * (1 - s)
+        return np.vstack((s.ravel(), (t * (1 - s)).ravel())), ws.ravel()
+
+
 class _Reference:
     """Basis gradients of one element type on the reference triangle, and the products
     that turn per-element geometry into element matrices with one matrix multiply."""
@@ -83,7 +102,7 @@ class _Reference:
         self.elem = _ELEMENTS[degree]()
         self.degree = degree
         # exact for the (linearly weighted) stiffness of straight-sided elements
-        X, W = get_quadrature(RefTri, 2 * degree - 1)
+        X, W = triangle_quadrature(2 * degree - 1)
         lam = np.vstack((1 - X[0] - X[1], X[0], X[1]))
         dphi = self.gradients(X)  # (nb, 2, nq)
         nb = dphi.shape[0]
@@ -98,7 +117,7 @@ class _Reference:
     def quadrature(self, order: int):
         """Points, weights and D[q, a, b, i, j] = dphi_i,a dphi_j,b for a rule of ``order``."""
         if order not in self._quad:
-            X, W = get_quadrature(RefTri, order)
+            X, W = triangle_quadrature(order)
             dphi = self.gradients(X)
             D = np.einsum("iaq,jbq->qabij", dphi, dphi).reshape(X.shape[1] * 4, -1)
             self._quad[order] = (X, W, D)
