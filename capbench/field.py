@@ -26,8 +26,9 @@ from dataclasses import dataclass, field
 import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
-from skfem import ElementTriP1, ElementTriP2, ElementTriP3, ElementTriP4, MeshTri1
+from skfem import MeshTri1
 from skfem.assembly import Dofs
+from skfem.element import ElementH1
 from skfem.quadrature import get_quadrature
 from skfem.refdom import RefTri
 
@@ -43,7 +44,77 @@ from .mesh import (
 )
 from .units import EPS0
 
-_ELEMENTS = {1: ElementTriP1, 2: ElementTriP2, 3: ElementTriP3, 4: ElementTriP4}
+MAX_DEGREE = 8
+
+
+class LagrangeTriangle(ElementH1):
+    """Lagrange element of any degree p on the reference triangle (0,0), (1,0), (0,1).
+
+    Nodes: the vertices; p - 1 equispaced nodes on each edge, ordered from the lower to
+    the higher local vertex (edges v0-v1, v1-v2, v0-v2, as scikit-fem numbers facets, so
+    that sorted triangles share edge nodes in one order); then the interior lattice. The
+    nodal basis is found through a Vandermonde matrix of products of Legendre
+    polynomials in x and y, which keeps it well conditioned up to p = 8 (sum of the
+    basis functions equals 1 to 2e-11). For p <= 4 it equals scikit-fem's ElementTriP1..4.
+    """
+
+    refdom = RefTri
+
+    def __init__(self, p: int):
+        if not 1 <= p <= MAX_DEGREE:
+            raise SolverError(f"element degree = {p}; valid: 1 to {MAX_DEGREE}", value=p)
+        self.p = p
+        self.nodal_dofs = 1
+        self.facet_dofs = p - 1
+        self.interior_dofs = (p - 1) * (p - 2) // 2
+        self.maxdeg = p
+        self.dofnames = ["u"] * 4
+        pts = [(0.0, 0.0), (1.0, 0.0), (0.0, 1.0)]
+        pts += [(k / p, 0.0) for k in range(1, p)]
+        pts += [((p - k) / p, k / p) for k in range(1, p)]
+        pts += [(0.0, k / p) for k in range(1, p)]
+        pts += [(i / p, j / p) for j in range(1, p) for i in range(1, p - j)]
+        self.doflocs = np.array(pts)
+        self._powers = [(a, b) for a in range(p + 1) for b in range(p + 1 - a)]
+        self._coef = np.linalg.inv(self._legendre(self.doflocs.T)[0].T)
+
+    @property
+    def n_local(self) -> int:
+        return len(self.doflocs)
+
+    def _legendre(self, X):
+        from numpy.polynomial import legendre as leg
+
+        x, y = 2 * np.asarray(X[0]) - 1, 2 * np.asarray(X[1]) - 1
+        eye = np.eye(self.p + 1)
+        px = [leg.legval(x, eye[k]) for k in range(self.p + 1)]
+        py = [leg.legval(y, eye[k]) for k in range(self.p + 1)]
+        dpx = [2 * leg.legval(x, leg.legder(eye[k])) for k in range(self.p + 1)]
+        dpy = [2 * leg.legval(y, leg.legder(eye[k])) for k in range(self.p + 1)]
+        M = np.array([px[a] * py[b] for a, b in self._powers])
+        Mx = np.array([dpx[a] * py[b] for a, b in self._powers])
+        My = np.array([px[a] * dpy[b] for a, b in self._powers])
+        return M, Mx, My
+
+    def all_bases(self, X):
+        """Values (n, nq) and gradients (n, 2, nq) of every basis function at X."""
+        M, Mx, My = self._legendre(X)
+        c = self._coef
+        return c.T @ M, np.stack((c.T @ Mx, c.T @ My), axis=1)
+
+    def lbasis(self, X, i):
+        M, Mx, My = self._legendre(X)
+        c = self._coef[:, i]
+        return c @ M, np.array([c @ Mx, c @ My])
+
+
+_ELEMENTS: dict[int, LagrangeTriangle] = {}
+
+
+def element(degree: int) -> LagrangeTriangle:
+    if degree not in _ELEMENTS:
+        _ELEMENTS[degree] = LagrangeTriangle(degree)
+    return _ELEMENTS[degree]
 
 
 def shell_tensor(x: np.ndarray, shell: Shell, axisymmetric: bool) -> np.ndarray:
@@ -99,8 +170,9 @@ class _Reference:
     that turn per-element geometry into element matrices with one matrix multiply."""
 
     def __init__(self, degree: int):
-        self.elem = _ELEMENTS[degree]()
+        self.elem = element(degree)
         self.degree = degree
+        self.n_interior = self.elem.interior_dofs
         # exact for the (linearly weighted) stiffness of straight-sided elements
         X, W = triangle_quadrature(2 * degree - 1)
         lam = np.vstack((1 - X[0] - X[1], X[0], X[1]))
@@ -112,7 +184,7 @@ class _Reference:
         self._quad: dict[int, tuple] = {}
 
     def gradients(self, X: np.ndarray) -> np.ndarray:
-        return np.array([self.elem.lbasis(X, i)[1] for i in range(_nb(self.elem))])
+        return self.elem.all_bases(X)[1]
 
     def quadrature(self, order: int):
         """Points, weights and D[q, a, b, i, j] = dphi_i,a dphi_j,b for a rule of ``order``."""
@@ -122,10 +194,6 @@ class _Reference:
             D = np.einsum("iaq,jbq->qabij", dphi, dphi).reshape(X.shape[1] * 4, -1)
             self._quad[order] = (X, W, D)
         return self._quad[order]
-
-
-def _nb(elem) -> int:
-    return 3 * elem.nodal_dofs + 3 * elem.facet_dofs + elem.interior_dofs
 
 
 _REFERENCES: dict[int, _Reference] = {}
@@ -265,11 +333,26 @@ class Assembly:
     infinity_dofs: np.ndarray
     floating_infinity: bool
     curved_elements: np.ndarray
+    n_skeleton: int  # vertex and edge unknowns: the size of the condensed system
+    recovery: np.ndarray | None  # (nel, n_interior, n_skeleton_local), see assemble
     seconds: float = 0.0
 
     @property
     def n_dofs(self) -> int:
+        """Unknowns of the finite-element space (interior ones included)."""
         return int(self.dofs.N)
+
+    def expand(self, Us: np.ndarray) -> np.ndarray:
+        """Full coefficient vectors (n_dofs, k) from skeleton ones (n_skeleton, k)."""
+        if self.recovery is None:
+            return Us
+        ed = self.dofs.element_dofs
+        ns = self.recovery.shape[2]
+        U = np.zeros((self.n_dofs, Us.shape[1]), dtype=Us.dtype)
+        U[: self.n_skeleton] = Us
+        interior = np.einsum("eij,jek->eik", self.recovery, Us[ed[:ns]])  # (nel, ni, k)
+        U[ed[ns:].T] = interior
+        return U
 
     def matrix(self, eps_by_region: dict[int, complex]) -> sp.csr_matrix:
         """K = eps0 * sum_r eps_r K_r."""
@@ -405,7 +488,7 @@ def gradient_at(asm: Assembly, u: np.ndarray, cells: np.ndarray, X: np.ndarray) 
     ref = _reference(asm.degree)
     m = asm.skmesh
     t = m.t[:, cells]
-    phi = np.array([ref.elem.lbasis(X, i)[1] for i in range(ref.nb)])  # (nb, 2, n)
+    phi = ref.elem.all_bases(X)[1]  # (nb, 2, n)
     gref = np.einsum("in,ibn->bn", u[asm.dofs.element_dofs[:, cells]], phi)
     _, _, _, Binv = _affine(m.p, t)
     g = np.einsum("ban,bn->an", Binv, gref)
@@ -420,6 +503,16 @@ def gradient_at(asm: Assembly, u: np.ndarray, cells: np.ndarray, X: np.ndarray) 
     return g
 
 
+def topology(mesh: TriMesh) -> MeshTri1:
+    """scikit-fem's view of the mesh (sorted triangles, facets), built once per mesh."""
+    m = mesh.cache.get("skfem")
+    if m is None:
+        m = MeshTri1(np.ascontiguousarray(mesh.p), np.ascontiguousarray(mesh.t), validate=False)
+        m.facets  # noqa: B018 (builds and caches the facet arrays)
+        mesh.cache["skfem"] = m
+    return m
+
+
 def assemble(mesh: TriMesh, degree: int, n_conductors: int) -> Assembly:
     """Assemble the stiffness matrix of each region on ``mesh`` with P``degree`` elements.
 
@@ -427,10 +520,8 @@ def assemble(mesh: TriMesh, degree: int, n_conductors: int) -> Assembly:
     for all elements); curved and shell elements use quadrature at every point.
     """
     t0 = time.perf_counter()
-    if degree not in _ELEMENTS:
-        raise SolverError(f"element degree = {degree}; valid: 1 to 4", value=degree)
-    m = MeshTri1(np.ascontiguousarray(mesh.p), np.ascontiguousarray(mesh.t), validate=False)
-    dofs = Dofs(m, _ELEMENTS[degree]())
+    m = topology(mesh)
+    dofs = Dofs(m, element(degree))
     ref = _reference(degree)
     t = m.t
     p = m.p
@@ -452,14 +543,25 @@ def assemble(mesh: TriMesh, degree: int, n_conductors: int) -> Assembly:
         Ke[curved] = _curved_matrices(
             ref, p, t[:, curved], arcs[:, curved], mesh.axisymmetric, order=2 * degree + 4
         )
-    ed = dofs.element_dofs  # (nb, nel)
-    N = int(dofs.N)
+    # Static condensation: an element's interior unknowns couple only within it, so
+    # K_e -> S_e = K_ss - K_si K_ii^-1 K_is on its vertex and edge unknowns, and the
+    # interior follows from u_i = R_e u_s, R_e = -K_ii^-1 K_is. Each element lies in one
+    # region, so R_e does not depend on the permittivity and S scales with it.
+    ni = ref.n_interior
+    ns = ref.nb - ni
+    recovery = None
+    if ni:
+        Kii = Ke[:, ns:, ns:]
+        recovery = -np.linalg.solve(Kii, Ke[:, ns:, :ns])  # (nel, ni, ns)
+        Ke = Ke[:, :ns, :ns] + np.einsum("eij,ejk->eik", Ke[:, :ns, ns:], recovery)
+    ed = dofs.element_dofs[:ns]  # vertex and edge unknowns come first in the numbering
+    n_skel = int(dofs.N) - ni * nel
     parts: dict[int, sp.csr_matrix] = {}
     for r in np.unique(mesh.region):
         sel = mesh.region == r
-        rows = np.repeat(ed[:, sel].T, ref.nb, axis=1).ravel()
-        cols = np.tile(ed[:, sel].T, (1, ref.nb)).ravel()
-        parts[int(r)] = sp.csr_matrix((Ke[sel].ravel(), (rows, cols)), shape=(N, N))
+        rows = np.repeat(ed[:, sel].T, ns, axis=1).ravel()
+        cols = np.tile(ed[:, sel].T, (1, ns)).ravel()
+        parts[int(r)] = sp.csr_matrix((Ke[sel].ravel(), (rows, cols)), shape=(n_skel, n_skel))
 
     def dofs_of(tag_mask):
         f = _facet_index(m, mesh.edges[:, tag_mask])
@@ -488,6 +590,8 @@ def assemble(mesh: TriMesh, degree: int, n_conductors: int) -> Assembly:
         infinity_dofs=inf,
         floating_infinity=floating,
         curved_elements=np.nonzero(curved)[0],
+        n_skeleton=n_skel,
+        recovery=recovery,
         seconds=time.perf_counter() - t0,
     )
 
@@ -511,7 +615,7 @@ def solve_unit_drives(asm: Assembly, eps_by_region: dict[int, complex]) -> Field
     """One factorisation, one solve per conductor held at 1 V (all others at 0 V)."""
     t0 = time.perf_counter()
     K = asm.matrix(eps_by_region)
-    N = asm.n_dofs
+    N = asm.n_skeleton
     nc = len(asm.conductor_dofs)
     fixed = np.zeros(N, bool)
     for d in asm.conductor_dofs:
@@ -530,8 +634,12 @@ def solve_unit_drives(asm: Assembly, eps_by_region: dict[int, complex]) -> Field
     G = np.zeros((N, nc))
     for k, d in enumerate(asm.conductor_dofs):
         G[d, k] = 1.0
-    A = (P.T @ K @ P).tocsc()
-    rhs = -(P.T @ (K @ G))
+    if asm.infinity_dofs.size:  # tie the far boundary into one floating unknown
+        A = (P.T @ K @ P).tocsc()
+        rhs = -(P.T @ (K @ G))
+    else:
+        A = K[free_idx][:, free_idx].tocsc()
+        rhs = -(K @ G)[free_idx]
     t1 = time.perf_counter()
     x = _direct_solve(A, np.asarray(rhs))
     t2 = time.perf_counter()
@@ -541,7 +649,7 @@ def solve_unit_drives(asm: Assembly, eps_by_region: dict[int, complex]) -> Field
     C_charge = G.T @ KU
     return FieldSolution(
         asm,
-        U,
+        asm.expand(U),
         C_energy,
         C_charge,
         seconds={"assemble": asm.seconds, "system": t1 - t0, "factor_solve": t2 - t1},

@@ -127,6 +127,8 @@ class TriMesh:
     shell: Shell | None = None
     level: int = 0
     info: dict = field(default_factory=dict)
+    #: derived data of this very mesh (never copied to a refined mesh)
+    cache: dict = field(default_factory=dict, init=False, repr=False)
 
     @property
     def n_vertices(self) -> int:
