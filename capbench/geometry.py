@@ -769,8 +769,15 @@ class Fixture:
         return dict(self.params)
 
     def with_permittivity(self, name: str, eps_r: complex) -> Fixture:
-        """A copy with one region's permittivity changed (the mesh stays valid)."""
-        return replace(self, geometry=self.geometry.with_permittivity(name, eps_r))
+        """A copy with one region's permittivity changed (the mesh stays valid); the
+        builder's recorded arguments follow, so a later ``with_changes`` keeps it."""
+        from .rigs import params_with_permittivity
+
+        return replace(
+            self,
+            geometry=self.geometry.with_permittivity(name, eps_r),
+            params=params_with_permittivity(self, name, eps_r),
+        )
 
     def with_changes(self, **changes) -> Fixture:
         """Rebuild through the builder that made this fixture, with some arguments changed."""

@@ -11,7 +11,7 @@ capacitance per unit length unless a length is given.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
 from . import validate as v
@@ -19,6 +19,7 @@ from .errors import GeometryError
 from .geometry import (
     AXISYMMETRIC,
     DIRECT,
+    MEDIUM,
     PAIR,
     PLANAR,
     Compound,
@@ -561,6 +562,20 @@ BUILDERS = {
     "interdigitated": interdigitated,
     "four_electrode_section": four_electrode_section,
 }
+
+
+def params_with_permittivity(fixture: Fixture, region: str, eps_r: complex) -> tuple:
+    """The builder arguments of ``fixture`` with the permittivity of ``region`` set."""
+    p = dict(fixture.params)
+    if region == MEDIUM and "medium_eps_r" in p:
+        p["medium_eps_r"] = eps_r
+    elif region == SPECIMEN:
+        for key in ("specimen_eps_r", "fill_eps_r", "substrate_eps_r"):
+            if key in p:
+                p[key] = eps_r
+        if isinstance(p.get("specimen"), Specimen):
+            p["specimen"] = replace(p["specimen"], eps_r=eps_r)
+    return tuple(sorted(p.items()))
 
 
 def rebuild(fixture: Fixture, **changes) -> Fixture:

@@ -165,6 +165,15 @@ def test_with_changes_rebuilds_and_with_permittivity_copies():
     assert fx.geometry.permittivities()["specimen"] == 2.3
     with pytest.raises(cb.GeometryError, match="no argument"):
         fx.with_changes(gap="1 mm")
+    # a permittivity set on the copy survives a later rebuild
+    assert other.with_changes(guard_gap="1 mm").geometry.permittivities()["specimen"] == 4.0
+    discs = cb.parallel_discs(radius="25 mm", gap="2 mm", specimen=cb.Specimen("1 mm", 2.0))
+    assert (
+        discs.with_permittivity("specimen", 3.5)
+        .with_changes(gap="3 mm")
+        .geometry.permittivities()["specimen"]
+        == 3.5
+    )
 
 
 def test_suspicious_gap_warns():
