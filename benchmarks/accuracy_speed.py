@@ -143,7 +143,7 @@ def _child_reference(case: str, level: int) -> float:
     ).real
 
 
-def _child_scaling(level: int) -> dict:
+def _child_scaling(level: int, degree: int = 4) -> dict:
     import warnings
 
     from capbench import capacitance as cc
@@ -276,6 +276,7 @@ def measure_case(case: str, targets, repeats: int) -> list[dict]:
                 baseline_needs_n=need,
                 baseline_rate=rate,
                 baseline_best_err=float(es[-1]),
+                baseline_max_n=int(ns[-1]),
             )
         rows.append(row)
     return rows
@@ -287,7 +288,7 @@ def fmt_row(r: dict) -> str:
         f"x{r['ratio_s']:<8.1f}"
         if r.get("baseline_n")
         else f"  not reached: best {r['baseline_best_err']:.1e} at "
-        f"{BASELINE_MAX_DOFS / 4:,.0f}+ unknowns; needs ~{r['baseline_needs_n']:.1e}"
+        f"{r['baseline_max_n']:,} unknowns; needs ~{r['baseline_needs_n']:.1e}"
     )
     return (
         f"{r['case']:16s} {r['target']:6.0e} | {r['capbench_n']:>8,} "
@@ -342,21 +343,25 @@ def main(argv=None) -> int:
             f"1e-6 takes x{fem['capbench_s'] / s:.0f} that"
         )
 
-    print("\nScaling of one solve (assembly + factorisation + solves), discs d/a = 0.1, P4:")
-    scal = [run_in_child(_child_scaling, level) for level in range(4)]
-    for s in scal:
+    print("\nScaling of one solve (assembly + factorisation + solves), discs d/a = 0.1:")
+    scal, exponents = [], {}
+    for degree, levels in ((4, range(4)), (8, range(3))):
+        runs = [run_in_child(_child_scaling, level, degree) for level in levels]
+        for s in runs:
+            print(
+                f"  P{degree} {s['n']:>9,} unknowns: {s['s']:7.3f} s "
+                f"(factor+solve {s['factor']:.3f} s), {s['mem']:.0f} MiB"
+            )
+        n = np.array([s["n"] for s in runs], float)
+        t = np.array([s["s"] for s in runs])
+        exponents[degree] = float(np.polyfit(np.log(n[1:]), np.log(t[1:]), 1)[0])
+        nlogn = np.polyfit(np.log(n[1:]), np.log(n[1:] * np.log(n[1:])), 1)[0]
         print(
-            f"  {s['n']:>9,} unknowns: {s['s']:7.3f} s (factor+solve {s['factor']:.3f} s), "
-            f"{s['mem']:.0f} MiB"
+            f"  P{degree}: fitted exponent of time against unknowns {exponents[degree]:.2f} "
+            f"(N log N over this range would fit as {nlogn:.2f})"
         )
-    n = np.array([s["n"] for s in scal], float)
-    t = np.array([s["s"] for s in scal])
-    expo = np.polyfit(np.log(n[1:]), np.log(t[1:]), 1)[0]
-    nlogn = np.polyfit(np.log(n[1:]), np.log(n[1:] * np.log(n[1:])), 1)[0]
-    print(
-        f"  fitted exponent of time against unknowns: {expo:.2f} "
-        f"(N log N over this range would fit as {nlogn:.2f})"
-    )
+        scal += runs
+    expo = exponents
     if args.json:
         args.json.write_text(
             json.dumps(
