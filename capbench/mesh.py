@@ -680,6 +680,15 @@ def _spacing(e: Line | Arc, sf: SizeField) -> np.ndarray:
         h = sf(e.point(s))
     inv = 1.0 / h
     cum = np.concatenate(([0.0], np.cumsum(0.5 * (inv[:-1] + inv[1:]) * np.diff(s) * L)))
+    if cum[-1] > MAX_SEED_POINTS / 8:
+        raise GeometryError(
+            f"a boundary {L:.3g} m long would need {cum[-1]:,.0f} mesh points: a gap of "
+            f"about {2 * float(np.min(h)):.3g} m runs along it, over {L / (2 * np.min(h)):,.0f} "
+            "times thinner than the parts are long; close the gap (let the parts touch) "
+            "or widen it",
+            points=int(cum[-1]),
+            limit=MAX_SEED_POINTS // 8,
+        )
     n = max(1, math.ceil(cum[-1] - 1e-9))
     if isinstance(e, Arc):
         n = max(n, math.ceil(abs(e.t1 - e.t0) / math.radians(90)))

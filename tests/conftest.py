@@ -38,3 +38,16 @@ def _quiet_capbench_warnings():
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", cb.CapbenchWarning)
         yield
+
+
+def _hypothesis_profiles() -> None:
+    import os
+
+    from hypothesis import settings
+
+    settings.register_profile("ci", max_examples=12, deadline=None)
+    settings.register_profile("fuzz", max_examples=400, deadline=None)
+    settings.load_profile(os.environ.get("HYPOTHESIS_PROFILE", "ci"))
+
+
+_hypothesis_profiles()
