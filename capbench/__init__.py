@@ -11,7 +11,14 @@ Typical use::
 from importlib.metadata import PackageNotFoundError, version
 
 # extraction of permittivity and loss, uncertainty, reference materials, measurement files
-from . import extract, files, materials, sweep, uncertainty
+from . import (
+    extract,
+    files,
+    materials,
+    report,  # reports: HTML, PDF, JSON (matplotlib loaded on use)
+    sweep,
+    uncertainty,
+)
 from .capacitance import PotentialField, Solution, solve
 from .compare import Breakdown, Comparison, astm_edge_capacitance, measured_vs_ideal
 from .errors import (
@@ -177,6 +184,7 @@ __all__ = (
     "read_fixture",
     "read_measurement",
     "reference_eps_r",
+    "report",
     "solve",
     "sweep",
     "two_fluid",
