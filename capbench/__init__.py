@@ -16,6 +16,7 @@ from . import (
     files,
     materials,
     report,  # reports: HTML, PDF, JSON (matplotlib loaded on use)
+    store,  # the bench log (SQLite)
     sweep,
     uncertainty,
 )
@@ -87,6 +88,7 @@ from .rigs import (
     parallel_discs,
     parallel_strips,
 )
+from .store import BenchLog
 from .sweep import SweepResult
 from .uncertainty import (
     AccuracySpec,
@@ -117,6 +119,7 @@ __all__ = (
     "Q_",
     "AccuracySpec",
     "Annulus",
+    "BenchLog",
     "Breakdown",
     "Budget",
     "CapbenchError",
@@ -186,6 +189,7 @@ __all__ = (
     "reference_eps_r",
     "report",
     "solve",
+    "store",
     "sweep",
     "two_fluid",
     "type_a",
