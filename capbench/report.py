@@ -626,7 +626,7 @@ def build(
     }
     refs = ["codata", "fem"]
     if extraction is not None:
-        content["results"] = _results(extraction, coverage)
+        content["results"] = results(extraction, coverage)
         content["budgets"] = _budgets(extraction, coverage)
         refs = ["d150", "iec", "gum", *refs]
         method = METHOD_TEXT.get(extraction.method, extraction.method)
@@ -747,7 +747,10 @@ def _solution_summary(sol: Any) -> dict[str, str]:
     }
 
 
-def _results(extraction: Any, coverage: float) -> dict:
+def results(extraction: Any, coverage: float = 0.95) -> dict:
+    """An extraction's results as plain data: a one-line statement, a table (header,
+    rows of text) and ``points`` (numbers per frequency: eps_r, u_eps_r, U_eps_r, k_eps_r
+    and, with loss, the same for tan_delta), U = k u with k from the t distribution."""
     loss = extraction.points[0].tan_delta is not None
     header = ["frequency", "eps'", "U(eps')", "k", "closed form", "correction"]
     if loss:
@@ -880,4 +883,4 @@ def _inputs(m: Any) -> dict:
     return out
 
 
-__all__ = ["CAUTION", "REFERENCES", "Report", "build"]
+__all__ = ["CAUTION", "REFERENCES", "Report", "build", "results"]
