@@ -778,7 +778,7 @@ def main(
             return 130
         except BrokenPipeError:  # the reader (e.g. head) stopped reading: not an error
             with contextlib.suppress(OSError):
-                sys.stdout = open(os.devnull, "w")  # noqa: SIM115 - no flush error at exit
+                sys.stdout = open(os.devnull, "w")  # no flush error at exit
             return EXIT_OK
         except OSError as exc:  # e.g. an output folder that cannot be written
             stderr.write(f"capbench: error: {exc}\n")
