@@ -154,5 +154,5 @@ def test_a_near_contact_air_film_is_refused_clearly(fraction):
     fx = cb.parallel_discs(
         radius="70 mm", gap="1.5 mm", specimen=cb.Specimen(f"{1.5 * fraction} mm", 3.0)
     )
-    with pytest.raises(cb.GeometryError, match="close the gap|widen|below what a mesh"):
+    with pytest.raises(cb.GeometryError, match=r"close the gap|widen|below what a mesh"):
         cb.solve(fx, rtol=1e-4)
