@@ -33,7 +33,7 @@ from .extract import (
     micrometer,
     two_fluid,
 )
-from .files import Measurement, read_measurement
+from .files import Measurement, read_fixture, read_measurement, write_fixture
 from .geometry import (
     AXISYMMETRIC,
     DIRECT,
@@ -174,6 +174,7 @@ __all__ = (
     "monte_carlo",
     "parallel_discs",
     "parallel_strips",
+    "read_fixture",
     "read_measurement",
     "reference_eps_r",
     "solve",
@@ -185,4 +186,5 @@ __all__ = (
     "uncertainty",
     "ureg",
     "water_eps_r",
+    "write_fixture",
 )

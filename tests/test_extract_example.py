@@ -90,7 +90,7 @@ def test_measurement_reader_names_file_key_and_value(tmp_path):
     (tmp_path / "qf-pe-03_readings.csv").write_text(
         (ROOT / "fixtures" / "quillfield" / "qf-pe-03_readings.csv").read_text()
     )
-    with pytest.raises(cb.FileFormatError, match=r"bad.toml: \[fixture\].*0.5 mmm"):
+    with pytest.raises(cb.FileFormatError, match=r"bad.toml, line \d+: \[fixture\].*0.5 mmm"):
         files.read_measurement(bad)
     bad.write_text(src.replace('schema = "capbench-measurement/1"', 'schema = "other/2"'))
     with pytest.raises(cb.FileFormatError, match="schema"):
@@ -99,5 +99,5 @@ def test_measurement_reader_names_file_key_and_value(tmp_path):
     good.write_text(src)
     rows = (tmp_path / "qf-pe-03_readings.csv").read_text().replace("20.61381", "20.6x381")
     (tmp_path / "qf-pe-03_readings.csv").write_text(rows)
-    with pytest.raises(cb.FileFormatError, match=r"line 7, capacitance = '20\.6x381'"):
+    with pytest.raises(cb.FileFormatError, match=r"line 7: capacitance = '20\.6x381'"):
         files.read_measurement(good)
