@@ -31,7 +31,6 @@ import csv
 import io
 import math
 import re
-import tempfile
 import warnings
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
@@ -699,16 +698,10 @@ def read_table(data: bytes | str, label: str = "Readings table") -> tuple[files.
             f"{label}: the table is empty; give a header row such as 'frequency [Hz],"
             "capacitance [pF],dissipation factor' and one row per reading"
         )
-    # the library's reader takes a path: the text goes to a private temporary file
-    with tempfile.TemporaryDirectory(prefix="capbench-table-") as tmp:
-        path = Path(tmp) / "readings.csv"
-        path.write_bytes(raw)
-        try:
-            return files.read_readings(path)
-        except CapbenchError as exc:
-            raise FileFormatError(
-                f"{label}: {str(exc).replace('readings.csv: ', '')}", value=None
-            ) from None
+    try:
+        return files.readings_from_csv(raw.decode("utf-8"), source=label)
+    except CapbenchError as exc:
+        raise FileFormatError(str(exc), value=None) from None
 
 
 def table_text(readings: Sequence[files.Reading]) -> str:
@@ -1457,3 +1450,89 @@ def png(fig: Any, dpi: int = 110) -> bytes:
     buf = io.BytesIO()
     fig.savefig(buf, format="png", dpi=dpi)
     return buf.getvalue()
+
+
+def edge_caution(solution: Any, voltage: Any, label: str = "Test voltage [V]") -> tuple[str, bool]:
+    """The edge-field caution of a solved fixture at a typed test voltage, and whether
+    it is severe (the edge field reaches half of air's breakdown strength, the level at
+    which :meth:`capbench.guard.EdgeField.caution` says HIGH).
+
+    Raises
+    ------
+    InputError
+        A voltage that is not a number with a voltage unit, or outside 0 V to 1 MV,
+        the message starting with the box's label.
+    """
+    from . import guard
+
+    volts = parse_value(voltage, label, "voltage")
+    try:
+        ef = guard.edge_field(solution, voltage=volts)
+    except InputError as exc:
+        raise _label_error(label, exc) from None
+    severe = ef.governing * volts >= 0.5 * guard.AIR_BREAKDOWN
+    return ef.caution(), severe
+
+
+# --------------------------------------------------------------------------- guard and comparison
+
+
+def guard_inputs(key: str, text: Any, label: str) -> Any:
+    """A box of the guard-check form: "thicknesses" (lengths in m, a bare number in mm),
+    "eps" (relative permittivities) or "target" (a percentage, returned as a fraction)."""
+    raw = "" if text is None else str(text).strip()
+    parts = _split(raw)
+    if not parts:
+        raise InputError(f"{plain(label)}: the box is empty", name=plain(label))
+    if key == "thicknesses":
+        unit = _trailing_unit(parts[-1]) or "mm"
+        return [parse_value(_with_unit(p, unit), label, "length", limits="length") for p in parts]
+    if key == "eps":
+        return [parse_value(p, label, "number", limits="eps_r") for p in parts]
+    if key == "target":
+        pct = parse_value(raw.rstrip("%").strip(), label, "number")
+        if not 0.001 <= pct <= 10:
+            raise InputError(
+                f"{plain(label)} = {raw!r}; valid: 0.001 % to 10 %", name=plain(label), value=pct
+            )
+        return pct / 100
+    raise InputError(f"unknown guard box {key!r}", value=key)
+
+
+def guard_rows(check: Any) -> list[dict[str, str]]:
+    """The cases of a :class:`~capbench.guard.GuardCheck` as text rows."""
+    rows = []
+    for c in check.cases:
+        rows.append(
+            {
+                "thickness": f"{compact(c.thickness * 1e3, 4)} mm",
+                "eps'": compact(c.eps_r, 4),
+                "gap / thickness": compact(c.guard_gap / c.thickness, 3),
+                "effective diameter (field)": f"{c.diameter * 1e3:.5f} mm",
+                "d1 + B g": f"{c.formula_diameter * 1e3:.5f} mm",
+                "error with d1 + B g": f"{c.error_formula * 100:+.4f} %",
+                "error with bare d1": f"{c.error_bare * 100:+.4f} %",
+            }
+        )
+    return rows
+
+
+def breakdown_rows(b: Any) -> list[dict[str, str]]:
+    """The parts of a :class:`~capbench.compare.Breakdown` in pF and as shares."""
+    total = b.measured if b.measured is not None else b.predicted
+    rows = [
+        {
+            "part": name,
+            "capacitance": f"{q.magnitude:.5f} pF",
+            "share": f"{q.to('F').magnitude / total * 100:+.4f} %",
+        }
+        for name, q in b.parts().items()
+    ]
+    rows.append(
+        {
+            "part": "measured" if b.measured is not None else "predicted",
+            "capacitance": f"{total * 1e12:.5f} pF",
+            "share": "",
+        }
+    )
+    return rows
