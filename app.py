@@ -15,16 +15,16 @@ import streamlit as st
 
 from bench_pages import state
 
-st.set_page_config(page_title="capbench workbench", page_icon="⚡", layout="wide")
+st.set_page_config(page_title="capbench workbench", page_icon=":material/bolt:", layout="wide")
 state.init()
 
 PAGES = [
-    st.Page("bench_pages/start.py", title="Start", icon="🏁", default=True),
-    st.Page("bench_pages/fixture.py", title="Fixture", icon="📐"),
-    st.Page("bench_pages/solve.py", title="Field solve", icon="🧲"),
-    st.Page("bench_pages/extract.py", title="Permittivity", icon="📈"),
-    st.Page("bench_pages/guard.py", title="Guard and comparison", icon="🛡️"),
-    st.Page("bench_pages/report.py", title="Report", icon="📝"),
+    st.Page("bench_pages/start.py", title="Start", icon=":material/flag:", default=True),
+    st.Page("bench_pages/fixture.py", title="Fixture", icon=":material/straighten:"),
+    st.Page("bench_pages/solve.py", title="Field solve", icon=":material/blur_on:"),
+    st.Page("bench_pages/extract.py", title="Permittivity", icon=":material/show_chart:"),
+    st.Page("bench_pages/guard.py", title="Guard and comparison", icon=":material/shield:"),
+    st.Page("bench_pages/report.py", title="Report", icon=":material/description:"),
 ]
 
 page = st.navigation(PAGES)

@@ -58,7 +58,7 @@ def load_text(data: bytes, name: str) -> bool:
         fx = files.fixture_from_toml(text, source=name)
         builder, texts = wb.form_texts(fx)
     except cb.CapbenchError as exc:
-        st.error(f"Load fixture file: {exc}", icon="⛔")
+        st.error(f"Load fixture file: {exc}", icon=":material/error:")
         return False
     st.session_state[state.FIXTURE_BUILDER] = builder
     st.session_state[state.FIXTURE_TEXTS][builder] = texts

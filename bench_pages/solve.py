@@ -65,6 +65,6 @@ with tabs[2], state.shielded("Edge field"):
         state.inline_error(str(exc))
     else:
         if severe:
-            st.error(text, icon="⚡")
+            st.error(text, icon=":material/bolt:")
         else:
-            st.warning(text, icon="⚠️")
+            st.warning(text, icon=":material/warning:")

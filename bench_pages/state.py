@@ -117,7 +117,7 @@ def text_box(entry: wb.Entry, store: dict[str, str], prefix: str) -> str:
 def inline_error(message: str | None) -> None:
     """The message under a box that names the box and what would be valid."""
     if message:
-        st.error(message, icon="⛔")
+        st.error(message, icon=":material/error:")
 
 
 @contextmanager
@@ -127,13 +127,13 @@ def shielded(where: str) -> Iterator[None]:
     try:
         yield
     except cb.CapbenchError as exc:
-        st.error(f"{where}: {exc}", icon="⛔")
+        st.error(f"{where}: {exc}", icon=":material/error:")
     except Exception as exc:  # the page boundary: nothing may escape as a traceback
         traceback.print_exc()  # to the server's log, for the developers
         st.error(
             f"{where}: an unexpected {type(exc).__name__} ({exc}). Nothing was saved; "
             "check the entries above, and report it if it persists.",
-            icon="⛔",
+            icon=":material/error:",
         )
 
 
@@ -153,7 +153,7 @@ def sidebar() -> None:
         sol = st.session_state.get(SOLUTION)
         if sol is not None and fx is not None and sol.fixture == fx:
             st.caption(f"Solved: {cap_text(sol)}")
-        st.caption("⚠️ " + wb.SAFETY)
+        st.caption(":material/warning: " + wb.SAFETY)
 
 
 def cap_text(sol: Any) -> str:

@@ -92,6 +92,11 @@ def with_uncertainty(x: float, u: float, digits_u: int = 2) -> str:
         return "-"
     if u <= 0:
         return f"{sig(x, 7)} (exact)"
+    if 0 < abs(x) < 1e-3 and u < abs(x) * 10:
+        # small values (a loss tangent) share one power of ten: (2.58 ± 0.26)e-4
+        power = math.floor(math.log10(abs(x)))
+        inner = with_uncertainty(x / 10.0**power, u / 10.0**power, digits_u)
+        return f"({inner})e{power}"
     place = math.floor(math.log10(u)) - (digits_u - 1)
     if round(u / 10.0**place) >= 10**digits_u:  # 0.0996 rounds up a decade
         place += 1

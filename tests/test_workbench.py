@@ -68,6 +68,7 @@ def test_uncertainty_statement_rounding_follows_the_gum_example():
     assert wb.with_uncertainty(2.3, 0.0996) == "2.30 ± 0.10"
     assert wb.with_uncertainty(1234.5, 56.0) == "1234 ± 56"
     assert wb.with_uncertainty(5.0, 0.0) == "5.000000 (exact)"
+    assert wb.with_uncertainty(0.0002584, 2.7e-5) == "(2.58 ± 0.27)e-4"  # a loss tangent
     assert wb.frequency_text(1e3) == "1 kHz" and wb.frequency_text(2.5e6) == "2.5 MHz"
     assert wb.capacitance_text(20.70721e-12) == "20.70721 pF"
 
