@@ -35,36 +35,44 @@ if sol is None:
     st.stop()
 
 window = wb.edge_window(fx)
-tabs = st.tabs(["Potential", "Field strength", "Edge field and test voltage"])
-with tabs[0], state.shielded("Potential map"):
-    c1, c2 = st.columns(2)
-    lines = c1.toggle(
-        "Trace field lines (adds a few seconds)",
-        key="solve.lines",
-        help="Field lines follow E = -grad u; each picture is cached per fixture.",
-    )
-    whole = c2.toggle("Whole cross-section", key="solve.whole", value=window is None)
-    win = None if whole else window
-    with st.spinner("Drawing the potential..."):
-        png = actions.figure_png("potential", fx, sol.n_dofs, (win, 12 if lines else 0), sol)
-    st.image(png, caption="Potential in volts per volt applied; electrodes in black.")
-with tabs[1], state.shielded("Field-strength map"):
-    with st.spinner("Drawing the field strength..."):
-        png = actions.figure_png("field", fx, sol.n_dofs, (window,), sol)
-    st.image(
-        png, caption="|E| per volt applied, log scale; the ring marks the largest value shown."
-    )
-with tabs[2], state.shielded("Edge field"):
-    st.session_state.setdefault("solve.voltage", "10 V")
-    vtext = st.text_input(
-        "Test voltage [V]", key="solve.voltage", help="The bridge's drive or the test voltage."
-    )
-    try:
-        text, severe = wb.edge_caution(sol, vtext)
-    except cb.CapbenchError as exc:
-        state.inline_error(str(exc))
-    else:
-        if severe:
-            st.error(text, icon=":material/bolt:")
+# one picture per run (tabs would draw all three): the result above reaches the screen
+# first, and the picture follows without delaying it
+view = st.radio(
+    "Show",
+    ["Potential", "Field strength", "Edge field and test voltage"],
+    key="solve.view",
+    horizontal=True,
+)
+if view == "Potential":
+    with state.shielded("Potential map"):
+        c1, c2 = st.columns(2)
+        lines = c1.toggle(
+            "Trace field lines (adds a few seconds)",
+            key="solve.lines",
+            help="Field lines follow E = -grad u; each picture is cached per fixture.",
+        )
+        whole = c2.toggle("Whole cross-section", key="solve.whole", value=window is None)
+        win = None if whole else window
+        with st.spinner("Drawing the potential..."):
+            png = actions.figure_png("potential", fx, sol.n_dofs, (win, 12 if lines else 0), sol)
+        st.image(png, caption="Potential in volts per volt applied; electrodes in black.")
+elif view == "Field strength":
+    with state.shielded("Field-strength map"):
+        with st.spinner("Drawing the field strength..."):
+            png = actions.figure_png("field", fx, sol.n_dofs, (window,), sol)
+        st.image(png, caption="|E| per volt applied, log scale; the ring marks the largest shown.")
+elif view is not None:
+    with state.shielded("Edge field"):
+        st.session_state.setdefault("solve.voltage", "10 V")
+        vtext = st.text_input(
+            "Test voltage [V]", key="solve.voltage", help="The bridge's drive or the test voltage."
+        )
+        try:
+            text, severe = wb.edge_caution(sol, vtext)
+        except cb.CapbenchError as exc:
+            state.inline_error(str(exc))
         else:
-            st.warning(text, icon=":material/warning:")
+            if severe:
+                st.error(text, icon=":material/bolt:")
+            else:
+                st.warning(text, icon=":material/warning:")

@@ -1386,6 +1386,10 @@ def field_strength_figure(solution: Any, window: Sequence[float] | None = None) 
     wx0, wx1, wy0, wy1 = (w * 1e3 for w in window)
     inside = (x >= wx0) & (x <= wx1) & (y >= wy0) & (y <= wy1) & (e > 0)
     tri = Triangulation(x, y, pf.triangles)
+    # draw only the triangles near the window (the far field is most of the mesh)
+    cx, cy = x[pf.triangles].mean(axis=1), y[pf.triangles].mean(axis=1)
+    mx, my = 0.1 * (wx1 - wx0), 0.1 * (wy1 - wy0)
+    tri.set_mask((cx < wx0 - mx) | (cx > wx1 + mx) | (cy < wy0 - my) | (cy > wy1 + my))
     positive = e[e > 0]
     lo = float(np.percentile(positive, 2)) if positive.size else 1e-3
     hi = float(e[inside].max()) if inside.any() else float(e.max())

@@ -154,6 +154,7 @@ def test_solve_page_edge_caution_and_bad_voltage():
     at = go(start(), "solve")
     at.button(key="solve.run").click().run()
     assert not at.exception
+    at.radio(key="solve.view").set_value("Edge field and test voltage").run()
     at.text_input(key="solve.voltage").set_value("-5 V").run()
     assert not at.exception
     assert any("Test voltage" in e and "0 V < voltage <= 1 MV" in e for e in errors(at)), errors(at)

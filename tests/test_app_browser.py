@@ -150,9 +150,9 @@ def _metric(driver, label_start: str) -> str:
     from selenium.common.exceptions import StaleElementReferenceException
 
     # the page redraws while the script runs: an element found may be replaced at once
-    return WebDriverWait(driver, WAIT, ignored_exceptions=(StaleElementReferenceException,)).until(
-        find
-    )
+    return WebDriverWait(
+        driver, WAIT, poll_frequency=0.05, ignored_exceptions=(StaleElementReferenceException,)
+    ).until(find)
 
 
 def _settled(driver, appear: float = 10.0) -> None:
