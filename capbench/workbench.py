@@ -100,7 +100,7 @@ def with_uncertainty(x: float, u: float, digits_u: int = 2) -> str:
     place = math.floor(math.log10(u)) - (digits_u - 1)
     if round(u / 10.0**place) >= 10**digits_u:  # 0.0996 rounds up a decade
         place += 1
-    if -6 <= place <= 0:
+    if -12 <= place <= 0:
         decimals = -place
         return f"{x:.{decimals}f} ± {u:.{decimals}f}"
     if place > 0 and abs(x) < 1e9:
@@ -1361,7 +1361,9 @@ def edge_window(fixture: Fixture) -> tuple[float, float, float, float] | None:
 
 def field_strength_figure(solution: Any, window: Sequence[float] | None = None) -> Any:
     """|E| per volt applied over the cross-section (log colour scale), electrodes drawn,
-    the largest value inside the window marked.
+    the largest vertex value inside the window marked (at a sharp edge that value is
+    singular and depends on the mesh; :func:`capbench.guard.edge_field` reports the field
+    at a stated distance instead).
 
     The values are the piecewise-linear interpolant's gradient averaged at the mesh
     vertices (a picture; :func:`capbench.guard.edge_field` gives the figures for
@@ -1392,8 +1394,11 @@ def field_strength_figure(solution: Any, window: Sequence[float] | None = None) 
     tri.set_mask((cx < wx0 - mx) | (cx > wx1 + mx) | (cy < wy0 - my) | (cy > wy1 + my))
     positive = e[e > 0]
     lo = float(np.percentile(positive, 2)) if positive.size else 1e-3
-    hi = float(e[inside].max()) if inside.any() else float(e.max())
-    shown = np.clip(e, lo, None)
+    # the colour scale stops at 30 times the window's median field: a sharp edge's vertex
+    # values are singular (they grow as the mesh is refined towards the edge) and would
+    # darken everything else
+    hi = 30 * float(np.median(e[inside])) if inside.any() else float(e.max())
+    shown = np.clip(e, lo, max(hi, 10 * lo))
     mesh = ax.tripcolor(
         tri, shown, shading="gouraud", cmap="inferno", norm=LogNorm(lo, max(hi, 10 * lo))
     )
@@ -1403,10 +1408,11 @@ def field_strength_figure(solution: Any, window: Sequence[float] | None = None) 
         k = int(np.argmax(np.where(inside, e, -1.0)))
         ax.plot(x[k], y[k], marker="o", mfc="none", mec="cyan", ms=10, mew=1.5)
         ax.annotate(
-            f"{sig(e[k] / 1e3, 3)} kV/m per V",
+            f"largest: {sig(e[k] / 1e3, 3)} kV/m per V (mesh-dependent at a sharp edge)",
             (x[k], y[k]),
-            xytext=(8, 8),
+            xytext=(-8, 10),
             textcoords="offset points",
+            ha="right",
             color="cyan",
             fontsize=8,
         )
