@@ -11,7 +11,15 @@ Typical use::
 from importlib.metadata import PackageNotFoundError, version
 
 # extraction of permittivity and loss, uncertainty, reference materials, measurement files
-from . import extract, files, materials, sweep, uncertainty
+from . import (
+    extract,
+    files,
+    materials,
+    report,  # reports: HTML, PDF, JSON (matplotlib loaded on use)
+    store,  # the bench log (SQLite)
+    sweep,
+    uncertainty,
+)
 from .capacitance import PotentialField, Solution, solve
 from .compare import Breakdown, Comparison, astm_edge_capacitance, measured_vs_ideal
 from .errors import (
@@ -80,6 +88,7 @@ from .rigs import (
     parallel_discs,
     parallel_strips,
 )
+from .store import BenchLog
 from .sweep import SweepResult
 from .uncertainty import (
     AccuracySpec,
@@ -110,6 +119,7 @@ __all__ = (
     "Q_",
     "AccuracySpec",
     "Annulus",
+    "BenchLog",
     "Breakdown",
     "Budget",
     "CapbenchError",
@@ -177,7 +187,9 @@ __all__ = (
     "read_fixture",
     "read_measurement",
     "reference_eps_r",
+    "report",
     "solve",
+    "store",
     "sweep",
     "two_fluid",
     "type_a",

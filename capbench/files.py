@@ -681,7 +681,10 @@ def _fixture(table: _Table, skip: tuple[str, ...] = ()) -> Fixture:
     except CapbenchError as exc:
         key = getattr(exc, "name", None)
         key = key if isinstance(key, str) and key in table.data else None
-        raise table.error(key, f"({kind}): {exc}", value=getattr(exc, "value", None)) from None
+        given = f"= {table.data[key]!r} " if key else ""
+        raise table.error(
+            key, f"{given}({kind}): {exc}", value=getattr(exc, "value", None)
+        ) from None
     return _apply_permittivity(table, fx)
 
 

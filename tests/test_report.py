@@ -1,0 +1,144 @@
+"""Reports from the demo measurement: the HTML holds the result and the budget, the PDF
+has the expected pages and text, and the JSON carries the same numbers as the library."""
+
+from __future__ import annotations
+
+import io
+import json
+import math
+import re
+from pathlib import Path
+
+import pytest
+from scipy import stats
+
+import capbench as cb
+from capbench import files, report
+
+ROOT = Path(__file__).resolve().parents[1]
+DEMO = ROOT / "fixtures" / "quillfield" / "qf-pe-03.toml"
+
+
+@pytest.fixture(scope="module")
+def measurement():
+    return files.read_measurement(DEMO)
+
+
+@pytest.fixture(scope="module")
+def extraction(measurement):
+    return measurement.extract(rtol=1e-6)
+
+
+@pytest.fixture(scope="module")
+def rep(measurement, extraction):
+    return report.build(
+        measurement=measurement,
+        extraction=extraction,
+        operator="R. Quill (invented)",
+        created="2024-03-15T09:00:00+00:00",
+    )
+
+
+def welch_satterthwaite(budget) -> float:
+    """nu_eff = u_c^4 / sum (c_i u_i)^4 / nu_i (JCGM 100:2008, G.4.1), from the rows."""
+    den = sum(r.contribution**4 / r.dof for r in budget.rows if math.isfinite(r.dof))
+    return math.inf if den == 0 else budget.u**4 / den
+
+
+def test_html_is_self_contained_and_holds_result_and_budget(rep, extraction):
+    text = rep.html()
+    assert text.startswith("<!DOCTYPE html>") and text.rstrip().endswith("</html>")
+    # nothing fetched when it opens: every image is embedded, no external URL
+    assert "http://" not in text and "https://" not in text
+    srcs = re.findall(r'src="([^"]+)"', text)
+    assert len(srcs) == 3 and all(s.startswith("data:image/png;base64,") for s in srcs)
+    p = extraction[1]  # 1 kHz
+    U, _k = p.budget.expanded(p=0.95)
+    decimals = 1 - math.floor(math.log10(U))  # two significant digits of U (GUM 7.2.6)
+    assert f"<td>{p.eps_r.n:.{decimals}f}</td><td>{U:.{decimals}f}</td>" in text
+    for row in p.budget.rows:
+        assert f"<td>{row.name}</td>" in text
+    assert "Uncertainty budgets" in text and "Caution" in text
+    assert "QF-PE-03" in text and "R. Quill (invented)" in text
+    assert "JCGM 100:2008" in text and "ASTM D150" in text
+    assert f"capbench {cb.__version__}" in text
+
+
+def test_expanded_uncertainty_uses_t_with_effective_dof(rep, extraction):
+    data = json.loads(rep.json())
+    for item, p in zip(data["results"]["points"], extraction.points, strict=True):
+        nu = welch_satterthwaite(p.budget)
+        # k from the t distribution at 95 % (GUM G.3, G.4), by scipy directly
+        k = stats.norm.ppf(0.975) if math.isinf(nu) else stats.t.ppf(0.975, nu)
+        assert item["k_eps_r"] == pytest.approx(k, rel=1e-9)
+        assert item["U_eps_r"] == pytest.approx(k * p.eps_r.s, rel=1e-9)
+
+
+def test_json_carries_the_library_numbers(rep, extraction):
+    data = json.loads(rep.json())
+    assert data["schema"] == "capbench-report/1"
+    assert data["created"] == "2024-03-15T09:00:00+00:00"
+    pts = data["results"]["points"]
+    assert len(pts) == len(extraction)
+    for item, p in zip(pts, extraction.points, strict=True):
+        assert item["eps_r"] == p.eps_r.n and item["u_eps_r"] == p.eps_r.s
+        assert item["tan_delta"] == p.tan_delta.n
+        assert item["frequency_hz"] == p.frequency
+    assert len(data["budgets"]) == 2 * len(extraction)
+    for b in data["budgets"]:
+        # the shares of a budget add up to one (GUM 5.1.2, the law of propagation)
+        total = sum(r["share"] for r in b["rows"]) + b["correlation_share"]
+        assert total == pytest.approx(1.0, abs=1e-12)
+    assert data["caution"] == report.CAUTION
+    assert [f["name"] for f in data["figures"]] == ["fixture", "field", "result"]
+    with_png = json.loads(rep.json(figures=True))
+    assert all(len(f["png_base64"]) > 1000 for f in with_png["figures"])
+
+
+def test_pdf_pages_and_text(rep, extraction):
+    pypdf = pytest.importorskip("pypdf")
+    data = rep.pdf()
+    assert data.startswith(b"%PDF")
+    reader = pypdf.PdfReader(io.BytesIO(data))
+    # summary, figures, one page per budget (eps' and tan delta at each frequency), details
+    expected = 1 + 1 + 2 * len(extraction) + 1
+    assert len(reader.pages) == expected == len(rep.pdf_plan())
+    first = reader.pages[0].extract_text()
+    p = extraction[0]
+    U, _k = p.budget.expanded(p=0.95)
+    decimals = 1 - math.floor(math.log10(U))
+    assert f"eps' at 100 Hz = {p.eps_r.n:.{decimals}f} +- {U:.{decimals}f}" in first
+    assert "QF-PE-03" in first and "Caution" in first
+    budget_page = reader.pages[2].extract_text()
+    assert "Uncertainty budget: eps_r' at 100 Hz" in budget_page
+    assert "micrometer calibration" in budget_page
+    last = reader.pages[-1].extract_text()
+    assert "References" in last and "JCGM 100:2008" in last and "capbench" in last
+
+
+def test_write_all_forms(rep, tmp_path):
+    paths = rep.write(str(tmp_path / "qf-pe-03"))
+    assert [Path(p).suffix for p in paths] == [".html", ".pdf", ".json"]
+    assert all(Path(p).stat().st_size > 1000 for p in paths)
+    with pytest.raises(cb.InputError, match="'docx'; valid: html, pdf, json"):
+        rep.write(str(tmp_path / "x"), formats=("docx",))
+
+
+def test_solution_only_report():
+    fx = cb.parallel_discs("25 mm", "2.5 mm", name="invented test discs")
+    sol = cb.solve(fx, rtol=1e-5)
+    rep = report.build(solution=sol, lab="Quillfield Dielectrics Lab")
+    data = json.loads(rep.json())
+    assert "results" not in data and data["meta"]["fixture"] == "invented test discs"
+    c = f"{sol.capacitance.to('pF').magnitude:.7g} pF"
+    assert data["solution"]["terminal capacitance"] == c
+    assert c in rep.html()
+
+
+def test_build_refuses_nothing_and_wrong_types():
+    with pytest.raises(cb.InputError, match="nothing to report"):
+        report.build()
+    with pytest.raises(cb.InputError, match="give a capbench Extraction"):
+        report.build(extraction="2.3")
+    with pytest.raises(cb.InputError, match=r"coverage = 95; valid: a probability"):
+        report.build(fixture=cb.parallel_discs("25 mm", "2.5 mm"), coverage=95)
