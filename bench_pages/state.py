@@ -35,6 +35,7 @@ MONTE_CARLO = "bench.monte_carlo"
 GUARD = "bench.guard"
 COMPARISON = "bench.comparison"
 DEMO_TITLE = "bench.demo.title"
+REPORT = "bench.report"  # (sources, {"html": str, "pdf": bytes, "json": str})
 
 
 def init() -> None:
@@ -67,7 +68,16 @@ def init() -> None:
     st.session_state.setdefault(METHOD_TEXTS, method_texts)
     st.session_state.setdefault(SOURCE, "table" if table else "single")
     st.session_state.setdefault(TABLE_TEXT, table)
-    for key in (SOLUTION, SOLVE_ERROR, EXTRACTION, EXTRACT_ERROR, MONTE_CARLO, GUARD, COMPARISON):
+    for key in (
+        SOLUTION,
+        SOLVE_ERROR,
+        EXTRACTION,
+        EXTRACT_ERROR,
+        MONTE_CARLO,
+        GUARD,
+        COMPARISON,
+        REPORT,
+    ):
         st.session_state.setdefault(key, None)
     st.session_state.setdefault(POINT, 0)
     st.session_state.setdefault(FIXTURE_ERRORS, {})

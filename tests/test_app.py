@@ -8,6 +8,7 @@ valid, and never an exception on the page.
 
 from __future__ import annotations
 
+import json
 import math
 import re
 import sys
@@ -259,9 +260,19 @@ def test_guard_and_comparison_pages_against_the_standards_formula():
 def test_report_page_summary_holds_the_budget():
     at = start()
     at.button(key="start.run").click().run()
+    shown = nominal(metric(at, "eps' at 1 kHz"))
     go(at, "report")
     text = " ".join(m.value for m in at.markdown)
     assert "Budget of eps' at 1 kHz" in text
     assert re.search(r"eps' = 2\.304\d ± 0\.003\d", text), text[:500]
     assert "licensed practice" in text
     assert at.get("download_button")
+    # the library's report (capbench.report) in its three forms
+    at.button(key="report.build").click().run()
+    assert not at.exception and not errors(at), errors(at)
+    files = at.session_state["bench.report"][1]
+    assert files["pdf"].startswith(b"%PDF")
+    assert "Quillfield Dielectrics Lab" in files["html"] and "2.304" in files["html"]
+    rows = {r[0]: r for r in json.loads(files["json"])["results"]["rows"]}
+    assert float(rows["1 kHz"][1]) == shown  # the report states what the page shows
+    assert len(at.get("download_button")) == 4
