@@ -38,8 +38,12 @@ def save_and_load(fixture: cb.Fixture | None) -> None:
             "capbench fixture file (.toml, at most 1 MB)", type=["toml"], key="fixture.load"
         )
         if up is not None and st.session_state.get("fixture.loaded_id") != up.file_id:
-            load_text(up.getvalue(), up.name)
+            # marked before loading: a successful load reruns the page at once
             st.session_state["fixture.loaded_id"] = up.file_id
+            load_text(up.getvalue(), up.name)
+        flash = st.session_state.pop("fixture.flash", None)
+        if flash:
+            st.success(flash)
 
 
 def load_text(data: bytes, name: str) -> bool:
@@ -69,6 +73,6 @@ def load_text(data: bytes, name: str) -> bool:
     for key in ("fixture.name", "fixture.family", "fixture.variant"):
         st.session_state.pop(key, None)
     state.rebuild_fixture()
-    st.success(f"Loaded {fx.name} ({builder.replace('_', ' ')}).")
+    st.session_state["fixture.flash"] = f"Loaded {fx.name} ({builder.replace('_', ' ')})."
     st.rerun()
     return True

@@ -227,3 +227,75 @@ def test_browser_demo_solve_and_extract(server, browser, tmp_path):
     browser.save_screenshot(str(folder / "3-permittivity.png"))
     for name in ("1-start-demo.png", "2-field-solve.png", "3-permittivity.png"):
         assert (folder / name).stat().st_size > 10_000
+
+
+def _upload(driver, path: Path, nth: int = 0) -> None:
+    from selenium.webdriver.common.by import By
+    from selenium.webdriver.support.ui import WebDriverWait
+
+    inputs = WebDriverWait(driver, WAIT).until(
+        lambda d: d.find_elements(By.CSS_SELECTOR, 'input[type="file"]')
+    )
+    inputs[nth].send_keys(str(path))
+
+
+def test_browser_uploads_fixture_file_and_readings_table(server, browser, tmp_path):
+    """A saved fixture file and a readings table go in through the page's uploaders; a
+    file of the wrong kind gets an inline message, not a traceback."""
+    from selenium.webdriver.common.by import By
+    from selenium.webdriver.support.ui import WebDriverWait
+
+    import capbench as cb
+    from capbench import files
+
+    folder = _shots(tmp_path)
+    fx = cb.parallel_discs(radius="30 mm", gap="3 mm", name="uploaded discs")
+    saved = tmp_path / "uploaded-discs.toml"
+    files.write_fixture(fx, saved)
+    browser.get(server)
+    _settled(browser, appear=3.0)
+    _page(browser, "Fixture")
+    _settled(browser, appear=3.0)
+    _upload(browser, saved)
+
+    def radius_box(d):
+        boxes = d.find_elements(By.XPATH, "//input[@aria-label='Disc radius [mm]']")
+        return boxes and boxes[0].get_attribute("value") == "30 mm"
+
+    WebDriverWait(browser, WAIT, poll_frequency=0.1).until(radius_box)
+    # the discs' form replaces the guarded cell's: its boxes go once the run ends
+    WebDriverWait(browser, WAIT, poll_frequency=0.1).until(
+        lambda d: (
+            not d.find_elements(By.XPATH, "//input[@aria-label='Air gap above the specimen [mm]']")
+        )
+    )
+    gap = browser.find_element(By.XPATH, "//input[@aria-label='Electrode spacing [mm]']")
+    assert gap.get_attribute("value") == "3 mm"
+    _no_exception(browser)
+    browser.save_screenshot(str(folder / "4-fixture-loaded.png"))
+
+    # not a fixture file: the message names the file and what is wrong, inline
+    bad = tmp_path / "not-a-fixture.toml"
+    bad.write_text('schema = "something/9"\n', encoding="utf-8")
+    _upload(browser, bad)
+    WebDriverWait(browser, WAIT, poll_frequency=0.1).until(
+        lambda d: (
+            "Load fixture file: not-a-fixture.toml" in d.find_element(By.TAG_NAME, "body").text
+        )
+    )
+    _no_exception(browser)
+
+    # a readings table uploaded on the Permittivity page replaces the table's text
+    table = tmp_path / "two-frequencies.csv"
+    table.write_text(
+        "frequency [Hz],capacitance [pF],dissipation factor\n"
+        "1000,20.6133,0.000254\n1000,20.6131,0.000255\n10000,20.6068,0.000312\n",
+        encoding="utf-8",
+    )
+    _page(browser, "Permittivity")
+    _settled(browser, appear=3.0)
+    _upload(browser, table)
+    WebDriverWait(browser, WAIT, poll_frequency=0.1).until(
+        lambda d: "3 readings at 2 frequencies" in d.find_element(By.TAG_NAME, "body").text
+    )
+    _no_exception(browser)
