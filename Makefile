@@ -4,7 +4,7 @@ VENV := .venv
 BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed
 
-.PHONY: run test quick fuzz bench lint install clean
+.PHONY: run test quick fuzz bench lint install clean browser
 
 $(STAMP): pyproject.toml
 	test -d $(VENV) || $(PY) -m venv $(VENV)
@@ -14,12 +14,28 @@ $(STAMP): pyproject.toml
 
 install: $(STAMP)
 
-# The main job: solve the demo fixture and print the result.
+# The main job: the workbench page on localhost, the demo fixture and readings loaded.
+PORT ?= 8501
 run: install
-	$(BIN)/python -m capbench
+	@echo "capbench workbench: open http://localhost:$(PORT) (Ctrl+C stops it)"
+	$(BIN)/streamlit run app.py --server.headless true --server.port $(PORT) \
+		--server.address localhost --browser.gatherUsageStats false
+
+# Debian's chromium and chromium-driver for the browser test (tests/test_app_browser.py);
+# where apt-get cannot install them the test is skipped and says why.
+browser:
+	@if command -v chromium >/dev/null 2>&1 && command -v chromedriver >/dev/null 2>&1; then \
+		:; \
+	elif command -v apt-get >/dev/null 2>&1 && [ "$$(id -u)" = 0 ]; then \
+		(apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq \
+			chromium chromium-driver >/dev/null) \
+		|| echo "browser: apt-get could not install chromium; the browser test will skip"; \
+	else \
+		echo "browser: no apt-get as root here; the browser test will skip"; \
+	fi
 
 # The whole test suite (CI runs this through .ci/run).
-test: install
+test: install browser
 	$(BIN)/python -m pytest -q
 
 # Everything but the slow checks.
@@ -30,8 +46,8 @@ bench: install
 	$(BIN)/python benchmarks/accuracy_speed.py
 
 lint: install
-	$(BIN)/ruff check capbench tests benchmarks examples app.py
-	$(BIN)/ruff format --check capbench tests benchmarks examples app.py
+	$(BIN)/ruff check capbench tests benchmarks examples app.py bench_pages
+	$(BIN)/ruff format --check capbench tests benchmarks examples app.py bench_pages
 
 clean:
 	rm -rf $(VENV) .pytest_cache build *.egg-info

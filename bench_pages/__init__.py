@@ -1,0 +1,1 @@
+"""Page modules of the capbench workbench (``app.py``): widgets only, no physics."""

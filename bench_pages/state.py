@@ -1,0 +1,172 @@
+"""Session state of the workbench and what every page shares.
+
+Results live under keys no widget owns (a widget's key vanishes when its page is not
+drawn); boxes are seeded from them with ``setdefault`` and copied back after drawing.
+"""
+
+from __future__ import annotations
+
+import traceback
+from collections.abc import Iterator
+from contextlib import contextmanager
+from typing import Any
+
+import streamlit as st
+
+import capbench as cb
+from capbench import workbench as wb
+
+#: keys of the results and inputs the pages share (none is a widget's key)
+FIXTURE_BUILDER = "bench.fixture.builder"
+FIXTURE_TEXTS = "bench.fixture.texts"  # builder -> {box key: text}
+FIXTURE_NAME = "bench.fixture.name"
+FIXTURE = "bench.fixture"  # the Fixture the boxes make, or None
+FIXTURE_ERRORS = "bench.fixture.errors"
+SOLUTION = "bench.solution"  # the last Solution, for the fixture it was made for
+SOLVE_ERROR = "bench.solve.error"
+METHOD = "bench.method"
+METHOD_TEXTS = "bench.method.texts"  # method -> {box key: text}
+SOURCE = "bench.method.source"  # "table" or "single"
+TABLE_TEXT = "bench.table.text"
+EXTRACTION = "bench.extraction"
+EXTRACT_ERROR = "bench.extract.error"
+POINT = "bench.point"
+MONTE_CARLO = "bench.monte_carlo"
+GUARD = "bench.guard"
+COMPARISON = "bench.comparison"
+DEMO_TITLE = "bench.demo.title"
+REPORT = "bench.report"  # (sources, {"html": str, "pdf": bytes, "json": str})
+
+
+def init() -> None:
+    """Seed the session with the invented demo measurement (Quillfield bench 3)."""
+    if DEMO_TITLE in st.session_state:
+        return
+    try:
+        d = wb.demo()
+    except cb.CapbenchError:  # the demo files are missing: start from the forms' defaults
+        d = None
+    if d is None:
+        builder = "guarded_cell"
+        texts = {builder: wb.RIG_FORMS[builder].defaults}
+        st.session_state.setdefault(DEMO_TITLE, "")
+        st.session_state.setdefault(FIXTURE_NAME, "my fixture")
+        method_texts: dict[str, dict[str, str]] = {}
+        table = ""
+        method = "contacting"
+    else:
+        builder = d.builder
+        texts = {d.builder: d.fixture_texts}
+        st.session_state.setdefault(DEMO_TITLE, d.title)
+        st.session_state.setdefault(FIXTURE_NAME, d.fixture_name)
+        method_texts = {d.method: d.method_texts}
+        table = d.table
+        method = d.method
+    st.session_state.setdefault(FIXTURE_BUILDER, builder)
+    st.session_state.setdefault(FIXTURE_TEXTS, texts)
+    st.session_state.setdefault(METHOD, method)
+    st.session_state.setdefault(METHOD_TEXTS, method_texts)
+    st.session_state.setdefault(SOURCE, "table" if table else "single")
+    st.session_state.setdefault(TABLE_TEXT, table)
+    for key in (
+        SOLUTION,
+        SOLVE_ERROR,
+        EXTRACTION,
+        EXTRACT_ERROR,
+        MONTE_CARLO,
+        GUARD,
+        COMPARISON,
+        REPORT,
+    ):
+        st.session_state.setdefault(key, None)
+    st.session_state.setdefault(POINT, 0)
+    st.session_state.setdefault(FIXTURE_ERRORS, {})
+    rebuild_fixture()
+
+
+def fixture_texts(builder: str | None = None) -> dict[str, str]:
+    """The stored box texts of a builder's form (its defaults the first time)."""
+    builder = builder or st.session_state[FIXTURE_BUILDER]
+    store = st.session_state[FIXTURE_TEXTS]
+    if builder not in store:
+        store[builder] = wb.RIG_FORMS[builder].defaults
+    return store[builder]
+
+
+def rebuild_fixture() -> wb.FormResult:
+    """Build the fixture from the stored texts; keep it (or None) and the box errors."""
+    builder = st.session_state[FIXTURE_BUILDER]
+    result = wb.read_fixture_form(
+        builder, fixture_texts(builder), st.session_state.get(FIXTURE_NAME, "")
+    )
+    st.session_state[FIXTURE] = result.fixture if result.ok else None
+    st.session_state[FIXTURE_ERRORS] = result.errors
+    return result
+
+
+def method_texts(method: str | None = None) -> dict[str, str]:
+    method = method or st.session_state[METHOD]
+    store = st.session_state[METHOD_TEXTS]
+    if method not in store:
+        form = wb.METHOD_FORMS[method]
+        store[method] = {e.key: e.default for e in (*form.entries, *wb.COMMON_ENTRIES)}
+    return store[method]
+
+
+def text_box(entry: wb.Entry, store: dict[str, str], prefix: str) -> str:
+    """A text box seeded from ``store`` and copied back into it; returns the text."""
+    key = f"{prefix}.{entry.key}"
+    st.session_state.setdefault(key, store.get(entry.key, entry.default))
+    text = st.text_input(
+        entry.label, key=key, help=entry.help or None, placeholder=entry.default or None
+    )
+    store[entry.key] = text
+    return text
+
+
+def inline_error(message: str | None) -> None:
+    """The message under a box that names the box and what would be valid."""
+    if message:
+        st.error(message, icon=":material/error:")
+
+
+@contextmanager
+def shielded(where: str) -> Iterator[None]:
+    """No traceback reaches the page: capbench's refusals are shown as they are (they
+    name the value and what is valid); anything else as one line naming ``where``."""
+    try:
+        yield
+    except cb.CapbenchError as exc:
+        st.error(f"{where}: {exc}", icon=":material/error:")
+    except Exception as exc:  # the page boundary: nothing may escape as a traceback
+        traceback.print_exc()  # to the server's log, for the developers
+        st.error(
+            f"{where}: an unexpected {type(exc).__name__} ({exc}). Nothing was saved; "
+            "check the entries above, and report it if it persists.",
+            icon=":material/error:",
+        )
+
+
+def current_fixture() -> cb.Fixture | None:
+    return st.session_state.get(FIXTURE)
+
+
+def fixture_missing_note() -> None:
+    st.info("The fixture on the Fixture page has invalid boxes; fix them there first.")
+
+
+def sidebar() -> None:
+    with st.sidebar:
+        fx = current_fixture()
+        if fx is not None:
+            st.caption(f"Fixture: **{fx.name}** ({fx.kind.replace('_', ' ')})")
+        sol = st.session_state.get(SOLUTION)
+        if sol is not None and fx is not None and sol.fixture == fx:
+            st.caption(f"Solved: {cap_text(sol)}")
+        st.caption(":material/warning: " + wb.SAFETY)
+
+
+def cap_text(sol: Any) -> str:
+    if sol.unit == "F":
+        return wb.capacitance_text(float(sol.capacitance.magnitude))
+    return f"{wb.sig(float(sol.capacitance.to('pF/m').magnitude), 7)} pF/m"
