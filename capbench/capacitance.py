@@ -32,6 +32,7 @@ import pint
 
 from . import field as fe
 from . import mesh as mm
+from . import validate
 from .errors import GeometryError, SolverError
 from .geometry import DIRECT, GROUND, MEDIUM, PAIR, Fixture, Geometry, OpenSpace
 from .units import EPS0, Q_
@@ -454,6 +455,7 @@ def solve(
             value=rtol,
             valid=(1e-9, 1e-2),
         )
+    time_budget, max_dofs = validate.solver_budget(time_budget, max_dofs)
     t_start = time.perf_counter()
     g = fixture.geometry
     names = g.conductor_names
@@ -498,7 +500,8 @@ def solve(
         partial = _finish(fixture, names, grounded, rungs, last_fs, t_start)
         raise SolverError(
             f"could not reach rtol = {rtol:.1e} on the finest mesh; reached "
-            f"{rungs[-1].rel_error:.1e}",
+            f"{rungs[-1].rel_error:.1e}. Loosen rtol to above the error reached "
+            "(valid: 1e-9 to 1e-2)",
             rtol=rtol,
             partial=partial,
         )

@@ -77,6 +77,7 @@ import pint
 from threadpoolctl import threadpool_limits
 from uncertainties.core import AffineScalarFunc
 
+from . import validate
 from .capacitance import solve
 from .errors import ExtractionError, GeometryError, InputError
 from .geometry import MEDIUM, Fixture
@@ -264,22 +265,41 @@ def ideal_contacting(capacitance: Any, thickness: Any, area: Any) -> Any:
     c = si_value(capacitance, "capacitance", "capacitance", limits="capacitance")
     t = si_value(thickness, "length", "thickness", limits="length")
     a = _area(area)
-    return _contacting_formula(c, t, a)
+    return _closed_result(_contacting_formula(c, t, a), "contacting")
+
+
+def _closed_result(eps: Any, label: str) -> Any:
+    """A closed form's eps_r, refused outside the valid range 1 to 1e4 (a plausible but
+    wrong number from readings or dimensions in the wrong unit)."""
+    e = _n(eps)
+    if not (math.isfinite(e) and EPS_MIN <= e <= EPS_MAX):
+        raise ExtractionError(
+            f"the {label} readings give eps_r = {e:.6g}, outside the valid range "
+            f"{EPS_MIN:g} to {EPS_MAX:g}: check the readings' units and order, the thickness "
+            "and the area",
+            eps_r=e,
+            valid=(EPS_MIN, EPS_MAX),
+        )
+    validate.permittivity_result(e, f"{label}: eps_r")
+    return eps
 
 
 def _area(area: Any) -> Any:
-    if isinstance(area, pint.Quantity):
+    """An electrode area in m**2 (a quantity, "500 mm**2", a number in m**2, or a ufloat),
+    its nominal value in the range of :data:`capbench.validate.LIMITS` ["area"]."""
+    if isinstance(area, pint.Quantity) and isinstance(area.magnitude, AffineScalarFunc):
         try:
             a = area.to("m**2").magnitude
         except pint.DimensionalityError:
-            raise InputError(f"area = {area!r} is not an area; give it in m**2 or mm**2") from None
-    elif isinstance(area, str):
-        a = _area(Q_(area))
-    else:
-        a = area
-    if not _n(a) > 0:
-        raise InputError(f"area = {area!r} must be > 0 m**2", value=area)
-    return a
+            raise InputError(
+                f"area = {area:~P} is not an area; give it in m**2 or mm**2", name="area"
+            ) from None
+        validate.check(a.n, "area", "area")
+        return a
+    if isinstance(area, AffineScalarFunc):
+        validate.check(area.n, "area", "area")
+        return area
+    return validate.check(area, "area", "area")
 
 
 def ideal_air_gap(
@@ -408,8 +428,9 @@ def ideal_liquid(empty: Any, filled: Any, empty_eps_r: Any = 1.0, stray: Any = 0
     ce = si_value(empty, "capacitance", "empty reading", limits="capacitance")
     cf = si_value(filled, "capacitance", "filled reading", limits="capacitance")
     cp = _stray_value(stray)
+    e0 = si_value(empty_eps_r, "dimensionless", "empty_eps_r", limits="eps_r")
     _check_liquid(ce, cf, cp)
-    return _liquid_formula(ce, cf, empty_eps_r, cp)
+    return _closed_result(_liquid_formula(ce, cf, e0, cp), "liquid cell")
 
 
 # --------------------------------------------------------------------------- checks
@@ -570,6 +591,9 @@ def _loss(
         )
     if dissipation is not None:
         d = _readings(dissipation, "dimensionless", f"{name} dissipation factor", "loss")
+        for x in d:
+            if validate.dissipation(_n(x), f"{name} dissipation factor"):
+                break
         return _broadcast(d, n, f"{name} dissipation factor")
     if conductance is not None:
         g = _broadcast(
@@ -582,7 +606,14 @@ def _loss(
                 f"{name}: a conductance reading needs its frequency (D = G / (2 pi f C))",
                 name=name,
             )
-        return [gi / (2 * math.pi * f * c) for gi, f, c in zip(g, freqs, caps, strict=True)]
+        out = [gi / (2 * math.pi * f * c) for gi, f, c in zip(g, freqs, caps, strict=True)]
+        for i, x in enumerate(out):
+            # D from G: the same limits as a D read directly
+            validate.check(_n(x), "loss", f"{name} D = G / (2 pi f C) [{i}]", positive=False)
+        for x in out:
+            if validate.dissipation(_n(x), f"{name} D = G / (2 pi f C)"):
+                break
+        return out
     return None
 
 
@@ -590,8 +621,7 @@ def _stray_value(stray: Any) -> Any:
     if stray is None:
         return 0.0
     c = si_value(stray, "capacitance", "stray capacitance")
-    if _n(c) < 0:
-        raise InputError(f"stray capacitance = {_n(c) * 1e12:.6g} pF must be >= 0 pF", value=_n(c))
+    validate.check_or_zero(_n(c), "capacitance", "stray capacitance")
     return c
 
 
@@ -1195,7 +1225,9 @@ def _point(
             f"the {label} readings{where} give eps_r = {_n(re):.6g}, outside {EPS_MIN:g} to "
             f"{EPS_MAX:g}: check the readings' units and order, the thickness and the area",
             eps_r=_n(re),
+            valid=(EPS_MIN, EPS_MAX),
         )
+    validate.permittivity_result(_n(re), f"{label}: eps_r{where}")
     if lossy:
         loss = -eps_u.im
         tan = loss / re
@@ -1250,6 +1282,20 @@ def _medium_of(fixture: Fixture) -> complex:
     return complex(fixture.geometry.medium_eps_r)
 
 
+def _quasi_static(fx: Fixture, points: list[Point]) -> None:
+    """Warn at each frequency where the fixture is over 1/20 of the wavelength in its
+    densest dielectric (:func:`capbench.validate.quasi_static`). This is the one place
+    in an extraction where the frequency and the fixture's size are both known."""
+    size = fx.geometry.size()
+    regions = max(complex(e).real for e in fx.geometry.permittivities().values())
+    for p in points:
+        if p.frequency is None:
+            continue
+        eps = max(regions, _n(p.eps_r))
+        if validate.quasi_static(p.frequency, size, eps, fx.name or fx.kind):
+            break  # one warning names the frequency above which results fail
+
+
 def _finish(
     method: str,
     fx: Fixture,
@@ -1259,6 +1305,7 @@ def _finish(
     extras: tuple[tuple[str, Any], ...] = (),
 ) -> Extraction:
     rel = max(fem.rel.values(), default=0.0) if fem else 0.0
+    _quasi_static(fx, points)
     return Extraction(
         method,
         fx,

@@ -68,7 +68,7 @@ from .geometry import (
     RoundedRect,
 )
 from .uncertainty import AccuracySpec
-from .units import parse_quantity, to_si
+from .units import NUMBER_PATTERN, parse_quantity, to_si
 
 FIXTURE_SCHEMA = "capbench-fixture/1"
 SCHEMA = "capbench-measurement/1"
@@ -149,12 +149,26 @@ def _decode(data: bytes, source: str) -> str:
         ) from None
 
 
-def _depth(obj: Any, level: int = 0) -> int:
-    if isinstance(obj, Mapping):
-        return max((_depth(v, level + 1) for v in obj.values()), default=level + 1)
-    if isinstance(obj, list):
-        return max((_depth(v, level + 1) for v in obj), default=level + 1)
-    return level
+def _depth(obj: Any, limit: int = MAX_DEPTH) -> int:
+    """Nesting depth of tables and arrays, counted without recursion and stopping once
+    past ``limit`` (a recursive count overflowed Python's stack on a file of a few
+    hundred nested arrays that tomllib itself could still read)."""
+    deepest = 0
+    stack = [(obj, 0)]
+    while stack:
+        item, level = stack.pop()
+        if isinstance(item, Mapping):
+            children = item.values()
+        elif isinstance(item, list):
+            children = item
+        else:
+            deepest = max(deepest, level)
+            continue
+        deepest = max(deepest, level + 1)
+        if deepest > limit:
+            return deepest
+        stack.extend((child, level + 1) for child in children)
+    return deepest
 
 
 def _parse_toml(text: str, source: str) -> dict:
@@ -170,14 +184,15 @@ def _parse_toml(text: str, source: str) -> dict:
         raise FileFormatError(f"{source}: not valid TOML: {exc}", file=source) from None
     except RecursionError:
         raise FileFormatError(
-            f"{source}: nested too deeply to read (at most {MAX_DEPTH} levels)",
+            f"{source}: nested too deeply to read; valid: at most {MAX_DEPTH} levels",
             file=source,
             valid=(0, MAX_DEPTH),
         ) from None
     depth = _depth(data)
     if depth > MAX_DEPTH:
         raise FileFormatError(
-            f"{source}: tables and arrays nested {depth} deep; at most {MAX_DEPTH} levels",
+            f"{source}: tables and arrays nested at least {depth} deep; valid: at most "
+            f"{MAX_DEPTH} levels",
             file=source,
             value=depth,
             valid=(0, MAX_DEPTH),
@@ -185,7 +200,9 @@ def _parse_toml(text: str, source: str) -> dict:
     return data
 
 
-_HEADER = re.compile(r"^\s*\[\[?\s*([^\]]+?)\s*\]\]?\s*(?:#.*)?$")
+# a [table] or [[array]] header line; no two parts can match the same characters (the
+# former "\s*([^\]]+?)\s*" took minutes on a line of "[" and a few thousand spaces)
+_HEADER = re.compile(r"^\s*\[\[?([^\]]*)\]\]?\s*(?:#.*)?$")
 
 
 def _line_of(text: str, section: str, key: str | None) -> int | None:
@@ -195,8 +212,8 @@ def _line_of(text: str, section: str, key: str | None) -> int | None:
     want = re.compile(rf"^\s*[\"']?{re.escape(key)}[\"']?\s*=") if key else None
     for i, line in enumerate(text.splitlines(), start=1):
         m = _HEADER.match(line)
-        if m and "=" not in line.split("]")[0]:
-            current = m.group(1).replace('"', "").replace(" ", "")
+        if m and "=" not in line.split("]")[0] and m.group(1).strip():
+            current = "".join(m.group(1).replace('"', "").split())
             if key is None and current == section:
                 return i
             continue
@@ -303,7 +320,7 @@ _UNIT_EXAMPLE = {
 }
 
 
-_UNITLESS = re.compile(r"^[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?$")
+_UNITLESS = re.compile(rf"^{NUMBER_PATTERN}$")
 
 
 def _zero(value: Any) -> bool:
@@ -332,7 +349,12 @@ def _quantity(value: Any, kind: str, fail) -> float:
         raise fail(f"= {value!r}: {text}", value=value) from None
 
 
-_COMPLEX = re.compile(r"^[-+]?[0-9.eE+-]+(?:[-+][0-9.eE+-]*[jJ])?$")
+# eps' or eps' - eps''j; each part an unambiguous number (linear-time matching)
+_COMPLEX = re.compile(
+    rf"^{NUMBER_PATTERN}(?:[-+](?:(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)?[jJ])?$"
+)
+#: longest text read as a number or a permittivity
+MAX_NUMBER_CHARS = 64
 
 
 def _eps(value: Any, fail) -> complex | float:
@@ -344,7 +366,7 @@ def _eps(value: Any, fail) -> complex | float:
     elif isinstance(value, str):
         compact = value.replace(" ", "")
         try:
-            if not _COMPLEX.match(compact):
+            if len(compact) > MAX_NUMBER_CHARS or not _COMPLEX.match(compact):
                 raise ValueError(compact)
             z = complex(compact)
         except ValueError:
@@ -980,10 +1002,27 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
             "least one reading",
             file=source,
         )
-    try:
-        rows = list(csv.reader([ln for _, ln in numbered], strict=True))
-    except csv.Error as exc:
-        raise FileFormatError(f"{source}: not a valid CSV table: {exc}", file=source) from None
+    rows = []
+    for i, ln in numbered:
+        # one line, one row: a quoted cell may not run on to the next line (the row
+        # count would no longer match the line numbers the messages give)
+        try:
+            parsed = list(csv.reader([ln], strict=True))
+        except csv.Error as exc:
+            raise FileFormatError(
+                f"{source}, line {i}: not a valid CSV row ({exc}); write one reading per line, "
+                "plain numbers separated by commas",
+                file=source,
+                line=i,
+            ) from None
+        if len(parsed) != 1:
+            raise FileFormatError(
+                f"{source}, line {i}: a quoted cell runs past the end of the line; write one "
+                "reading per line, plain numbers separated by commas",
+                file=source,
+                line=i,
+            )
+        rows.append(parsed[0])
     header_line = numbered[0][0]
     columns = []
     seen = set()
@@ -1055,14 +1094,21 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
             if field_name != "frequency" and field_name != "capacitance" and text_value == "":
                 continue  # an optional reading left blank
             try:
-                if not re.fullmatch(r"[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?", text_value):
+                if len(text_value) > MAX_NUMBER_CHARS or not _UNITLESS.match(text_value):
                     raise ValueError(text_value)
                 value = to_si(f"{text_value} {unit or default}".strip(), kind, field_name)
             except (ValueError, CapbenchError):
+                formula = text_value.startswith(("=", "@")) or (
+                    text_value[:1] in "+-" and not re.match(r"[-+][\d.]", text_value)
+                )
+                what = (
+                    "looks like a spreadsheet formula; capbench reads only"
+                    if formula
+                    else "is not a number; write"
+                )
                 raise FileFormatError(
-                    f"{source}, line {i}: {field_name.replace('_', ' ')} = {text_value!r} is "
-                    f"not a number (write plain numbers such as 20.613 or 1e3; the unit goes "
-                    f"in the header)",
+                    f"{source}, line {i}: {field_name.replace('_', ' ')} = {text_value[:80]!r} "
+                    f"{what} plain numbers such as 20.613 or 1e3 (the unit goes in the header)",
                     file=source,
                     line=i,
                     key=field_name,
@@ -1551,23 +1597,26 @@ def _accuracy(table: _Table, key: str, required: bool = True) -> AccuracySpec | 
 # --------------------------------------------------------------------------- export
 
 
-_FORMULA_START = ("=", "+", "-", "@", "\t", "\r", "|", "%")
+_FORMULA_START = ("=", "+", "-", "@", "\t", "\r", "\n", "|", "%", "\uff1d", "\uff0b", "\uff0d")
 
 
 def safe_cell(value: Any) -> Any:
     """A value made safe for a spreadsheet: text that a spreadsheet would run as a
-    formula (starting with = + - @ tab CR | %) gets a leading apostrophe; numbers pass.
+    formula (starting with = + - @ tab CR LF | %, their full-width forms, or any of
+    these after leading spaces) gets a leading apostrophe; numbers pass.
 
     Notes
     -----
     The usual defence against CSV formula injection (common practice, no source).
+    Leading spaces are looked through because some spreadsheets trim them before
+    deciding whether a cell is a formula.
     """
     if value is None:
         return ""
     if isinstance(value, (int, float)) and not isinstance(value, bool):
         return value
     text = str(value)
-    if text.startswith(_FORMULA_START):
+    if text.lstrip(" ").startswith(_FORMULA_START):
         return "'" + text
     return text
 

@@ -389,8 +389,11 @@ def type_b(
     return _wrap(InputVariable(float(q.magnitude), std, src), unit)
 
 
+# "0.05 % of reading"; the number written so that no two parts match the same digits
+# (the former "\d*\.?\d+" backtracked quadratically on a long run of digits)
 _SPEC = re.compile(
-    r"^\s*(?P<pct>[-+]?\d*\.?\d+(?:[eE][-+]?\d+)?)\s*%\s*(?:of\s+(?:the\s+)?reading)?\s*$"
+    r"^\s*(?P<pct>[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)\s*%"
+    r"\s*(?:of\s+(?:the\s+)?reading)?\s*$"
 )
 
 
@@ -425,9 +428,11 @@ class AccuracySpec:
     @classmethod
     def parse(cls, text: str, distribution: str = "rectangular") -> AccuracySpec:
         """Read "0.05 % of reading + 0.002 pF" (terms in any order; either may be absent)."""
-        if not isinstance(text, str) or not text.strip():
+        if not isinstance(text, str) or not text.strip() or len(text) > 200:
+            shown = repr(text) if not isinstance(text, str) else repr(text[:80])
             raise InputError(
-                f"accuracy = {text!r}; write it as e.g. '0.05 % of reading + 0.002 pF'",
+                f"accuracy = {shown}; write it as e.g. '0.05 % of reading + 0.002 pF' "
+                "(at most 200 characters)",
                 value=text,
             )
         pct = 0.0
