@@ -469,16 +469,22 @@ def solve(
             elapsed = time.perf_counter() - t_start
             if est_dofs > max_dofs or elapsed + est_time > time_budget:
                 why = (
-                    f"the next step needs about {est_dofs:,} unknowns (limit {max_dofs:,})"
+                    f"the next step needs about {est_dofs:,} unknowns, over max_dofs = {max_dofs:,}"
                     if est_dofs > max_dofs
-                    else f"the next step would take about {est_time:.0f} s beyond the "
-                    f"{time_budget:.0f} s budget"
+                    else f"the next step would take about {est_time:.3g} s more, beyond "
+                    f"time_budget = {time_budget:.3g} s ({elapsed:.3g} s used)"
+                )
+                reached = rungs[-1].rel_error
+                got = (
+                    f"reached {reached:.1e}"
+                    if math.isfinite(reached)
+                    else "one step solved, no error estimate yet"
                 )
                 partial = _finish(fixture, names, grounded, rungs, last_fs, t_start)
                 raise SolverError(
-                    f"could not reach rtol = {rtol:.1e}: {why}; reached "
-                    f"{rungs[-1].rel_error:.1e}. Loosen rtol, or raise time_budget / "
-                    "max_dofs",
+                    f"could not reach rtol = {rtol:.1e}: {why}; {got}. Loosen rtol (valid "
+                    "1e-9 to 1e-2), or raise time_budget (up to 86400 s) or max_dofs (up to "
+                    "1e8)",
                     rtol=rtol,
                     reached=rungs[-1].rel_error,
                     partial=partial,
