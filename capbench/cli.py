@@ -453,8 +453,14 @@ def _cmd_guard(args, out: _Out) -> int:
 
     fx = read_fixture(args.fixture)
     p = _guarded(fx, "guard")
-    eps = args.eps or [complex(fx.geometry.permittivities()["specimen"]).real]
-    thick = args.thickness or [p["specimen_thickness"]]
+    from . import validate
+
+    eps = [validate.check(e, "eps_r", f"--eps value {i + 1}") for i, e in enumerate(args.eps or [])]
+    eps = eps or [complex(fx.geometry.permittivities()["specimen"]).real]
+    thick = [
+        validate.length(t, f"--thickness value {i + 1}") for i, t in enumerate(args.thickness or [])
+    ]
+    thick = thick or [p["specimen_thickness"]]
     # options at their "absent" value (0 or None) stay out: guard_check range-checks lengths
     keys = ("unguarded_radius", "specimen_radius", "electrode_thickness", "edge_radius", "shield")
     cell = {k: p[k] for k in keys if p.get(k)}

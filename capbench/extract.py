@@ -405,11 +405,12 @@ def _two_fluid_nominal(c1: Any, c1s: Any, c2: Any, c2s: Any, e1: Any, e2: Any):
     try:
         eps, x, cv, cp = _two_fluid_formula(*vals)
     except ZeroDivisionError:
+        shown = ", ".join(f"{c * 1e12:.6g} pF" for c in vals[:4])
         raise ExtractionError(
-            "the four two-fluid readings are inconsistent with a specimen between the "
-            "electrodes (a zero denominator: the specimen fills no fraction of the spacing, "
-            "or a reading equals the stray capacitance); check their order (fluid 1, fluid "
-            "1 with specimen, fluid 2, fluid 2 with specimen)",
+            f"the four two-fluid readings ({shown}) are inconsistent with a specimen "
+            "between the electrodes (a zero denominator: the specimen fills no fraction of "
+            "the spacing, or a reading equals the stray capacitance); check their order "
+            "(fluid 1, fluid 1 with specimen, fluid 2, fluid 2 with specimen)",
             readings=vals[:4],
         ) from None
     _check_two_fluid_result(eps, x)
@@ -469,7 +470,7 @@ def _check_micrometer(t: Any, s1: Any, s2: Any, ratio: Any) -> None:
     if tn > s1n * (1 + 1e-9):
         raise ExtractionError(
             f"the specimen ({tn * 1e3:.6g} mm) is thicker than the loaded spacing "
-            f"({s1n * 1e3:.6g} mm)",
+            f"({s1n * 1e3:.6g} mm); valid: thickness <= loaded spacing",
             thickness=tn,
             spacing=s1n,
         )
@@ -532,7 +533,7 @@ def _check_liquid(ce: Any, cf: Any, cp: Any) -> None:
     if _n(cp) >= _n(ce):
         raise ExtractionError(
             f"the stray capacitance ({_n(cp) * 1e12:.6g} pF) is not below the empty "
-            f"reading ({_n(ce) * 1e12:.6g} pF)",
+            f"reading ({_n(ce) * 1e12:.6g} pF); valid: 0 pF to below the empty reading",
             stray=_n(cp),
             empty=_n(ce),
         )
@@ -1389,7 +1390,7 @@ def contacting(
         if _n(c) <= _n(cs):
             raise ExtractionError(
                 f"the reading {_n(c) * 1e12:.6g} pF is not above the stray capacitance "
-                f"{_n(cs) * 1e12:.6g} pF",
+                f"{_n(cs) * 1e12:.6g} pF (valid: a reading above the stray capacitance)",
                 reading=_n(c),
             )
     t = (
