@@ -20,6 +20,8 @@ from __future__ import annotations
 
 import argparse
 import contextlib
+import csv
+import io
 import json
 import math
 import os
@@ -745,7 +747,8 @@ def _cmd_log(args, out: _Out) -> int:
                 )
             return EXIT_OK
         text = log.export_csv(None if args.csv == "-" else args.csv, specimen=args.specimen)
-        n = max(0, text.count("\n") - 1)
+        # rows, not line breaks: a quoted cell may hold a line break of its own
+        n = max(0, len(list(csv.reader(io.StringIO(text)))) - 1)
         if args.csv == "-":
             out.stdout.write(text)
         elif out.as_json:

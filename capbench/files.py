@@ -210,7 +210,10 @@ def _line_of(text: str, section: str, key: str | None) -> int | None:
     where the section starts when ``key`` is None; None when not found."""
     current = ""
     want = re.compile(rf"^\s*[\"']?{re.escape(key)}[\"']?\s*=") if key else None
-    for i, line in enumerate(text.splitlines(), start=1):
+    # TOML's only line break is LF (CRLF ends in it); str.splitlines would also break at
+    # form feeds and U+2028 inside strings and comments and miscount the lines
+    for i, line in enumerate(text.split("\n"), start=1):
+        line = line.removesuffix("\r")
         m = _HEADER.match(line)
         if m and "=" not in line.split("]")[0] and m.group(1).strip():
             current = "".join(m.group(1).replace('"', "").split())
@@ -974,7 +977,9 @@ def read_readings(path: str | os.PathLike) -> tuple[Reading, ...]:
 def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, ...]:
     """Read a readings table from CSV text (see :func:`read_readings`)."""
     numbered = []
-    for i, line in enumerate(text.splitlines(), start=1):
+    # the line breaks of CSV (and of editors) only: a form feed or U+2028 inside a cell is
+    # part of the cell, not a new line that would shift every line number after it
+    for i, line in enumerate(re.split(r"\r\n|\r|\n", text), start=1):
         stripped = line.strip()
         if not stripped:
             continue
@@ -1622,9 +1627,14 @@ def safe_cell(value: Any) -> Any:
 
 
 def to_csv(header: list[str], rows: list[list[Any]]) -> str:
-    """CSV text of a table, every text cell through :func:`safe_cell`."""
+    """CSV text of a table, every text cell through :func:`safe_cell` and in quotes.
+
+    Every text cell is quoted: with the minimal quoting a cell holding a bare carriage
+    return went out unquoted, and a spreadsheet that breaks the row there would read
+    what follows (``x\r=HYPERLINK(...)``) as a new, un-neutralised cell.
+    """
     buf = io.StringIO()
-    w = csv.writer(buf, lineterminator="\n")
+    w = csv.writer(buf, lineterminator="\n", quoting=csv.QUOTE_NONNUMERIC)
     w.writerow([safe_cell(h) for h in header])
     for row in rows:
         w.writerow([safe_cell(c) for c in row])
