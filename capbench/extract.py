@@ -120,6 +120,15 @@ _RESERVED = {
 }
 
 
+def _shown(eps: float) -> str:
+    """eps_r for a message: 6 digits, more where 6 would round onto a limit (a result of
+    0.9999999 shown as "1, outside 1 to 10000" reads as a contradiction)."""
+    text = f"{eps:.6g}"
+    if text in (f"{EPS_MIN:.6g}", f"{EPS_MAX:.6g}") and eps not in (EPS_MIN, EPS_MAX):
+        text = f"{eps:.12g}"
+    return text
+
+
 def _n(x: Any) -> float:
     return float(x.n) if isinstance(x, AffineScalarFunc) else float(x)
 
@@ -274,7 +283,7 @@ def _closed_result(eps: Any, label: str) -> Any:
     e = _n(eps)
     if not (math.isfinite(e) and EPS_MIN <= e <= EPS_MAX):
         raise ExtractionError(
-            f"the {label} readings give eps_r = {e:.6g}, outside the valid range "
+            f"the {label} readings give eps_r = {_shown(e)}, outside the valid range "
             f"{EPS_MIN:g} to {EPS_MAX:g}: check the readings' units and order, the thickness "
             "and the area",
             eps_r=e,
@@ -516,7 +525,8 @@ def _check_two_fluid_result(eps: float, x: float) -> None:
         )
     if not (math.isfinite(eps) and EPS_MIN <= eps <= EPS_MAX):
         raise ExtractionError(
-            f"the four readings imply eps_r = {eps:.6g}, outside {EPS_MIN:g} to {EPS_MAX:g}",
+            f"the four readings imply eps_r = {_shown(eps)}, outside the valid range "
+            f"{EPS_MIN:g} to {EPS_MAX:g}",
             eps_r=eps,
         )
 
@@ -1223,7 +1233,7 @@ def _point(
     where = f" at {freq:.6g} Hz" if freq is not None else ""
     if not EPS_MIN <= _n(re) <= EPS_MAX:
         raise ExtractionError(
-            f"the {label} readings{where} give eps_r = {_n(re):.6g}, outside {EPS_MIN:g} to "
+            f"the {label} readings{where} give eps_r = {_shown(_n(re))}, outside {EPS_MIN:g} to "
             f"{EPS_MAX:g}: check the readings' units and order, the thickness and the area",
             eps_r=_n(re),
             valid=(EPS_MIN, EPS_MAX),
@@ -2057,7 +2067,11 @@ def _two_fluid_fem(
             "four readings may not fit the fixture (check the spacing and the fluids)",
         )
     if not (EPS_MIN <= eps <= EPS_MAX):
-        raise ExtractionError(f"two-fluid: eps_r = {eps:.6g} outside {EPS_MIN:g} to {EPS_MAX:g}")
+        raise ExtractionError(
+            f"two-fluid: eps_r = {_shown(eps)}, outside the valid range {EPS_MIN:g} to {EPS_MAX:g}",
+            eps_r=eps,
+            valid=(EPS_MIN, EPS_MAX),
+        )
     # linearised propagation: theta = theta0 - J^-1 R(theta0, x)
     dims0 = {"thickness": t, "spacing": spacing, **extra0}
     delta = solver.error_input(role)
