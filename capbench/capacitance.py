@@ -492,8 +492,21 @@ def solve(
         if progress:
             progress(min(0.95, step / 4), f"solving level {level}, degree {degree}")
         t0 = time.perf_counter()
-        asm = _assembly(g, rtol, level, degree, options)
-        fs = fe.solve_unit_drives(asm, eps)
+        try:
+            asm = _assembly(g, rtol, level, degree, options)
+            fs = fe.solve_unit_drives(asm, eps)
+        except MemoryError:
+            # the machine ran out before max_dofs did: a clear stop, not a crash
+            partial = _finish(fixture, names, grounded, rungs, last_fs, t_start) if rungs else None
+            biggest = f"{rungs[-1].n_dofs:,}" if rungs else "none"
+            raise SolverError(
+                f"ran out of memory at refinement level {level}, degree {degree} (largest step "
+                f"solved: {biggest} unknowns); lower max_dofs (now {max_dofs:,}; valid 100 to "
+                "1e8) below what this machine holds, or loosen rtol (valid 1e-9 to 1e-2)",
+                rtol=rtol,
+                max_dofs=max_dofs,
+                partial=partial,
+            ) from None
         Ct = terminal_capacitance(
             fs.maxwell_energy, names, fixture.high, fixture.low, fixture.connection, grounded
         )
