@@ -113,6 +113,20 @@ _METHOD_OPTIONS = {
 }
 
 
+#: longest refusal message; a longer one (quoting a huge value or key) keeps its start
+#: and end, so it still names the file, line, key and what would be valid
+MAX_MESSAGE_CHARS = 600
+
+
+def _error(message: str, **details: Any) -> FileFormatError:
+    """A FileFormatError whose message quotes a piece of a huge value, not all of it (a
+    600 kB array once came back whole in a one-line refusal)."""
+    if len(message) > MAX_MESSAGE_CHARS:
+        cut = len(message) - 400 - 150
+        message = f"{message[:400]} [... {cut:,} characters ...] {message[-150:]}"
+    return FileFormatError(message, **details)
+
+
 # --------------------------------------------------------------------------- reading TOML
 
 
@@ -120,13 +134,13 @@ def _read_bytes(path: Path, limit: int, what: str) -> bytes:
     try:
         size = path.stat().st_size
     except FileNotFoundError:
-        raise FileFormatError(f"{path}: no such {what}", file=str(path)) from None
+        raise _error(f"{path}: no such {what}", file=str(path)) from None
     except OSError as exc:
-        raise FileFormatError(f"{path}: cannot read the {what}: {exc}", file=str(path)) from None
+        raise _error(f"{path}: cannot read the {what}: {exc}", file=str(path)) from None
     if not path.is_file():
-        raise FileFormatError(f"{path}: is not a file", file=str(path))
+        raise _error(f"{path}: is not a file", file=str(path))
     if size > limit:
-        raise FileFormatError(
+        raise _error(
             f"{path.name}: {size:,} bytes is over the {limit:,}-byte limit of a {what}",
             file=str(path),
             value=size,
@@ -135,14 +149,14 @@ def _read_bytes(path: Path, limit: int, what: str) -> bytes:
     try:
         return path.read_bytes()
     except OSError as exc:
-        raise FileFormatError(f"{path}: cannot read the {what}: {exc}", file=str(path)) from None
+        raise _error(f"{path}: cannot read the {what}: {exc}", file=str(path)) from None
 
 
 def _decode(data: bytes, source: str) -> str:
     try:
         return data.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
-        raise FileFormatError(
+        raise _error(
             f"{source}: byte {exc.start} is not UTF-8 text; save the file as UTF-8",
             file=source,
             value=exc.start,
@@ -173,7 +187,7 @@ def _depth(obj: Any, limit: int = MAX_DEPTH) -> int:
 
 def _parse_toml(text: str, source: str) -> dict:
     if len(text.encode("utf-8")) > MAX_TOML_BYTES:
-        raise FileFormatError(
+        raise _error(
             f"{source}: over the {MAX_TOML_BYTES:,}-byte limit of a TOML file",
             file=source,
             valid=(0, MAX_TOML_BYTES),
@@ -181,16 +195,20 @@ def _parse_toml(text: str, source: str) -> dict:
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        raise FileFormatError(f"{source}: not valid TOML: {exc}", file=source) from None
+        raise _error(f"{source}: not valid TOML: {exc}", file=source) from None
+    except ValueError as exc:
+        # tomllib lets Python's own limits through, e.g. an integer of more than 4300
+        # digits ("Exceeds the limit ... for integer string conversion")
+        raise _error(f"{source}: not a value capbench can read: {exc}", file=source) from None
     except RecursionError:
-        raise FileFormatError(
+        raise _error(
             f"{source}: nested too deeply to read; valid: at most {MAX_DEPTH} levels",
             file=source,
             valid=(0, MAX_DEPTH),
         ) from None
     depth = _depth(data)
     if depth > MAX_DEPTH:
-        raise FileFormatError(
+        raise _error(
             f"{source}: tables and arrays nested at least {depth} deep; valid: at most "
             f"{MAX_DEPTH} levels",
             file=source,
@@ -243,7 +261,7 @@ class _Doc:
         return f"{self.source}{at}: {name}"
 
     def error(self, section: str, key: str | None, message: str, **details: Any) -> FileFormatError:
-        return FileFormatError(
+        return _error(
             f"{self.where(section, key)} {message}",
             file=self.source,
             key=f"{section}.{key}" if section and key else (key or section),
@@ -488,7 +506,7 @@ def fixture_to_toml(fixture: Fixture, comment: str = "") -> str:
         to within 1e-15 relative).
     """
     if not isinstance(fixture, Fixture):
-        raise FileFormatError(
+        raise _error(
             f"fixture_to_toml needs a capbench Fixture, got {type(fixture).__name__}",
             value=type(fixture).__name__,
         )
@@ -507,7 +525,7 @@ def fixture_to_toml(fixture: Fixture, comment: str = "") -> str:
     if fixture.kind == "custom":
         return "\n".join(head + _custom_lines(fixture)) + "\n"
     if fixture.kind not in _builders():
-        raise FileFormatError(
+        raise _error(
             f"fixture kind {fixture.kind!r} has no builder; valid: {sorted(_builders())} "
             "or 'custom'",
             value=fixture.kind,
@@ -585,7 +603,7 @@ def _shape_fields(shape: Any) -> list[tuple[str, str]]:
         )
         return [("shape", '"compound"'), ("parts", f"[{parts}]")]
     else:  # pragma: no cover - every shape of geometry is handled above
-        raise FileFormatError(f"cannot write a shape of type {type(shape).__name__}")
+        raise _error(f"cannot write a shape of type {type(shape).__name__}")
     return [("shape", f'"{kind}"')] + [(k, _mm(getattr(shape, k))) for k in keys]
 
 
@@ -641,9 +659,7 @@ def fixture_from_toml(text: str, source: str = "<fixture>") -> Fixture:
         Naming the source, the line, the key, the bad value and what would be valid.
     """
     if not isinstance(text, str):
-        raise FileFormatError(
-            f"{source}: fixture text must be str, got {type(text).__name__}", file=source
-        )
+        raise _error(f"{source}: fixture text must be str, got {type(text).__name__}", file=source)
     doc = _Doc(text, source)
     top = _Table(doc, doc.data, "")
     schema = top.get("schema", None)
@@ -986,7 +1002,7 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
         if stripped.startswith("#"):
             m = re.match(r"#\s*schema\s*:\s*(\S+)", stripped)
             if m and m.group(1) != READINGS_SCHEMA:
-                raise FileFormatError(
+                raise _error(
                     f"{source}, line {i}: schema {m.group(1)!r}; this reader knows "
                     f"{READINGS_SCHEMA!r}",
                     file=source,
@@ -996,13 +1012,13 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
             continue
         numbered.append((i, line))
         if len(numbered) > MAX_ROWS + 1:
-            raise FileFormatError(
+            raise _error(
                 f"{source}: more than {MAX_ROWS:,} readings; split the table",
                 file=source,
                 valid=(1, MAX_ROWS),
             )
     if len(numbered) < 2:
-        raise FileFormatError(
+        raise _error(
             f"{source}: needs a header row (e.g. 'frequency [Hz],capacitance [pF]') and at "
             "least one reading",
             file=source,
@@ -1014,14 +1030,14 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
         try:
             parsed = list(csv.reader([ln], strict=True))
         except csv.Error as exc:
-            raise FileFormatError(
+            raise _error(
                 f"{source}, line {i}: not a valid CSV row ({exc}); write one reading per line, "
                 "plain numbers separated by commas",
                 file=source,
                 line=i,
             ) from None
         if len(parsed) != 1:
-            raise FileFormatError(
+            raise _error(
                 f"{source}, line {i}: a quoted cell runs past the end of the line; write one "
                 "reading per line, plain numbers separated by commas",
                 file=source,
@@ -1036,7 +1052,7 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
         name = " ".join(name.lower().split())
         unit = unit.rstrip().rstrip("]").strip()
         if name not in _COLUMNS:
-            raise FileFormatError(
+            raise _error(
                 f"{source}, line {header_line}: column {j} is {head.strip()!r}; valid "
                 f"columns: {', '.join(_column_help())}",
                 file=source,
@@ -1045,7 +1061,7 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
             )
         spec = _COLUMNS[name]
         if spec[0] in seen:
-            raise FileFormatError(
+            raise _error(
                 f"{source}, line {header_line}: column {name!r} appears twice",
                 file=source,
                 line=header_line,
@@ -1056,7 +1072,7 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
             try:
                 to_si(f"1 {unit}", spec[1], name)
             except CapbenchError:
-                raise FileFormatError(
+                raise _error(
                     f"{source}, line {header_line}: column {j} {head.strip()!r}: {unit!r} is "
                     f"not a unit of {spec[1]} (e.g. [{spec[2] or '-'}]"
                     f"{', [pF]' if spec[1] == 'capacitance' else ''})",
@@ -1066,7 +1082,7 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
                 ) from None
         elif spec[1] != "dimensionless":
             example = "pF" if spec[1] == "capacitance" else spec[2]
-            raise FileFormatError(
+            raise _error(
                 f"{source}, line {header_line}: column {j} {head.strip()!r} has no unit; "
                 f"write it in brackets, e.g. '{name} [{example}]'",
                 file=source,
@@ -1076,7 +1092,7 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
         columns.append((spec, unit))
     for need in ("frequency", "capacitance"):
         if need not in seen:
-            raise FileFormatError(
+            raise _error(
                 f"{source}, line {header_line}: no {need!r} column; the header has "
                 f"{[h.strip() for h in rows[0]]}",
                 file=source,
@@ -1086,7 +1102,7 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
     for (i, _line), row in zip(numbered[1:], rows[1:], strict=True):
         if len(row) != len(columns):
             hint = " (a decimal comma? write 20.61, not 20,61)" if len(row) > len(columns) else ""
-            raise FileFormatError(
+            raise _error(
                 f"{source}, line {i}: {len(row)} values, the header has {len(columns)}{hint}",
                 file=source,
                 line=i,
@@ -1111,7 +1127,7 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
                     if formula
                     else "is not a number; write"
                 )
-                raise FileFormatError(
+                raise _error(
                     f"{source}, line {i}: {field_name.replace('_', ' ')} = {text_value[:80]!r} "
                     f"{what} plain numbers such as 20.613 or 1e3 (the unit goes in the header)",
                     file=source,
@@ -1160,7 +1176,7 @@ def _check_row(vals: dict[str, float], source: str, line: int, row: list[str]) -
             if key in ("frequency", "capacitance", "empty_capacitance"):
                 validate.check(value, limits[key], key.replace("_", " "))
         except CapbenchError as exc:
-            raise FileFormatError(
+            raise _error(
                 f"{source}, line {line}: {exc}", file=source, line=line, key=key, value=value
             ) from None
 
@@ -1209,7 +1225,7 @@ class Measurement:
         """The readings taken at ``frequency`` (Hz)."""
         rows = tuple(r for r in self.readings if r.frequency == frequency)
         if not rows:
-            raise FileFormatError(
+            raise _error(
                 f"{self.path.name}: no readings at {frequency:g} Hz; the file has "
                 f"{list(self.frequencies)} Hz",
                 value=frequency,
@@ -1502,7 +1518,7 @@ def _measurement_fixture(fix: _Table, path: Path) -> Fixture:
         try:
             return read_fixture(target)
         except FileFormatError as exc:
-            raise FileFormatError(
+            raise _error(
                 f"{fix.doc.where('fixture', 'file')} = {name!r}: {exc}",
                 file=str(target),
                 key="fixture.file",
@@ -1542,7 +1558,7 @@ def _measurement_readings(meth: _Table, path: Path, name: str, method: str) -> t
     for key in need:
         missing = [r.line for r in readings if getattr(r, key) is None]
         if missing:
-            raise FileFormatError(
+            raise _error(
                 f"{target.name}, line {missing[0]}: the {method} method needs a "
                 f"{key.replace('_', ' ')!r} reading in every row",
                 file=target.name,
@@ -1553,7 +1569,7 @@ def _measurement_readings(meth: _Table, path: Path, name: str, method: str) -> t
         have = [getattr(r, key) is not None for r in readings]
         if any(have) and not all(have):
             line = readings[have.index(False)].line
-            raise FileFormatError(
+            raise _error(
                 f"{target.name}, line {line}: {key.replace('_', ' ')} is blank here but "
                 "given in other rows; give it in every row or in none",
                 file=target.name,
@@ -1561,7 +1577,7 @@ def _measurement_readings(meth: _Table, path: Path, name: str, method: str) -> t
                 key=key,
             )
     if method == "contacting" and any(r.empty_capacitance is not None for r in readings):
-        raise FileFormatError(
+        raise _error(
             f"{target.name}: the contacting method takes no 'empty capacitance' column",
             file=target.name,
         )
