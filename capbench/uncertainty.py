@@ -732,8 +732,9 @@ def budget(y: Any, name: str = "y", unit: str | None = None) -> Budget:
         y = exact(float(y))
     scale = _power_of_two_scale(y)
     if scale != 1.0:
-        # contributions near 1e-160 square to below the smallest normal float and the
-        # shares no longer summed to 1; the budget of y * 2^k, scaled back, is exact
+        # contributions near 1e-160 square to below the smallest normal float (the
+        # shares no longer summed to 1) and near 1e-100 their 4th powers vanish (the
+        # degrees of freedom became infinite); the budget of y * 2^k, scaled back, is exact
         b = budget(y * scale, name, unit)
         return replace(
             b,
@@ -804,9 +805,10 @@ def budget(y: Any, name: str = "y", unit: str | None = None) -> Budget:
 
 def _power_of_two_scale(y: AffineScalarFunc) -> float:
     """1, or a power of two that brings the largest contribution |c u| of ``y`` near 1
-    when it lies outside 1e-100 to 1e100 (its square would underflow or overflow)."""
+    when it lies outside 1e-50 to 1e50 (Welch-Satterthwaite raises it to the 4th power,
+    which leaves the float range below 1e-77 or above 1e77)."""
     biggest = max((abs(d * var.std_dev) for var, d in y.derivatives.items()), default=0.0)
-    if biggest == 0 or not math.isfinite(biggest) or 1e-100 <= biggest <= 1e100:
+    if biggest == 0 or not math.isfinite(biggest) or 1e-50 <= biggest <= 1e50:
         return 1.0
     # at most 2^1000 at a time (2^1023 is the largest float); budget() repeats if needed
     return math.ldexp(1.0, max(-1000, min(1000, -math.frexp(biggest)[1])))

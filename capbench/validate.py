@@ -217,8 +217,8 @@ def quasi_static(frequency: float, size: float, eps_r: float = 1.0, where: str =
     -----
     lambda = c / (f sqrt(eps_r)); the warning fires when size > lambda / 20
     (:data:`QUASI_STATIC_FRACTION`). Beyond that the phase of the field varies across
-    the fixture and the cable and electrode inductance resonate with the capacitance,
-    so a quasi-static correction no longer applies (common practice, no source).
+    the fixture, so the electrostatic field, and the correction computed from it, no
+    longer describe it (common practice, no source).
     """
     f, d, e = float(frequency), float(size), max(float(eps_r), 1.0)
     if not (math.isfinite(f) and f > 0 and math.isfinite(d) and d > 0 and math.isfinite(e)):

@@ -259,3 +259,13 @@ def test_the_command_shows_warnings_as_one_line_each(tmp_path):
     assert code == 0, err.getvalue()
     lines = [ln for ln in err.getvalue().splitlines() if ln.startswith("capbench: warning:")]
     assert len(lines) == 1 and "over 1000 times smaller" in lines[0]
+
+
+def test_budget_degrees_of_freedom_survive_tiny_contributions():
+    # was: a type A input of 2 readings whose contribution was near 1e-100 gave infinite
+    # effective degrees of freedom (its 4th power underflowed); with one input the
+    # Welch-Satterthwaite formula gives that input's own n - 1 (GUM G.4.1)
+    x = cb.type_a([0.0, 2.4e-50], "x")
+    b = cb.uncertainty.budget(1.7e-50 * x)
+    assert b.dof == pytest.approx(1.0, rel=1e-12)
+    assert b.shares_total == pytest.approx(1.0, rel=1e-12)
