@@ -1460,8 +1460,15 @@ def read_measurement(path: str | os.PathLike, *, with_readings: bool = True) -> 
         )
     options = _method_options(meth, method)
     micrometer = spec.quantity("micrometer", "length", default="0 m")
-    if micrometer < 0:
-        raise spec.error("micrometer", f"= {spec.get('micrometer')!r} must be >= 0 mm")
+    if micrometer < 0 or micrometer > 0.1 * min(readings_t):
+        # a half-width beyond a tenth of the thickness is a unit typed wrong, not a
+        # micrometer's calibration
+        raise spec.error(
+            "micrometer",
+            f"= {spec.get('micrometer')!r}; valid: 0 mm to {0.1 * min(readings_t) * 1e3:.6g} mm "
+            "(a tenth of the thinnest reading)",
+            value=micrometer,
+        )
     temperature = _in_range(
         cond, "temperature", cond.quantity("temperature", "temperature"), "temperature"
     )

@@ -116,6 +116,9 @@ ENTRIES = {
     "air_eps_r": lambda a, _t: materials.air_eps_r(**a),
     "reference_eps_r": lambda a, _t: materials.reference_eps_r(**a),
     "solve": lambda a, _t: _solve(a),
+    "edge_field": lambda a, _t: cb.edge_field(
+        cb.solve(_fixtures()[a["fixture"]], rtol=1e-4), samples=a["samples"]
+    ),
     "accuracy": lambda a, _t: uncertainty.AccuracySpec.parse(a["text"]),
     "type_a": lambda a, _t: uncertainty.type_a(a["readings"], a["name"]),
     "coverage_factor": lambda a, _t: uncertainty.coverage_factor(a["dof"], a["p"]),

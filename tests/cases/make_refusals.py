@@ -499,6 +499,21 @@ case(
     ["cyclohexane temperature = 501 degC", "-200 degC to 500 degC"],
 )
 
+case(
+    "air-humidity-as-a-number-of-percent",
+    "air_eps_r",
+    {"relative_humidity": 50},
+    "InputError",
+    ["relative humidity = 50", "a fraction 0 to 1"],
+)
+case(
+    "edge-field-samples-below",
+    "edge_field",
+    {"fixture": "discs", "samples": 2},
+    "InputError",
+    ["samples = 2", "valid: a whole number 8 to 100000"],
+)
+
 # --------------------------------------------------------------------------- solver budgets
 case(
     "solve-rtol-above",
@@ -783,6 +798,13 @@ case(
     {"replace": [['electrode_radius = "0.01 mm"', 'electrode_radius = "30 mm"']]},
     "FileFormatError",
     ["case.toml, line 37", "'30 mm'", "> 0 mm and below the nominal 25 mm"],
+)
+case(
+    "measurement-micrometer-above",
+    MEAS,
+    {"replace": [['micrometer = "1.5 um"', 'micrometer = "1.5 mm"']]},
+    "FileFormatError",
+    ["case.toml", "micrometer", "'1.5 mm'", "valid: 0 mm to 0.20121 mm"],
 )
 case(
     "measurement-unknown-method",
