@@ -42,6 +42,14 @@ test: install browser
 quick: install
 	$(BIN)/python -m pytest -q -m "not slow"
 
+# The property tests with the long hypothesis profile ("fuzz": 400 examples a test, a
+# tenth of that where each example solves a field), with how many inputs each tried.
+PROPERTY_TESTS := tests/test_properties.py tests/test_properties_files.py \
+	tests/test_properties_extract.py
+fuzz: install
+	HYPOTHESIS_PROFILE=fuzz $(BIN)/python -m pytest -q -p no:cacheprovider \
+		--hypothesis-show-statistics $(PROPERTY_TESTS)
+
 bench: install
 	$(BIN)/python benchmarks/accuracy_speed.py
 

@@ -32,6 +32,7 @@ import pint
 
 from . import field as fe
 from . import mesh as mm
+from . import validate
 from .errors import GeometryError, SolverError
 from .geometry import DIRECT, GROUND, MEDIUM, PAIR, Fixture, Geometry, OpenSpace
 from .units import EPS0, Q_
@@ -454,6 +455,7 @@ def solve(
             value=rtol,
             valid=(1e-9, 1e-2),
         )
+    time_budget, max_dofs = validate.solver_budget(time_budget, max_dofs)
     t_start = time.perf_counter()
     g = fixture.geometry
     names = g.conductor_names
@@ -467,16 +469,22 @@ def solve(
             elapsed = time.perf_counter() - t_start
             if est_dofs > max_dofs or elapsed + est_time > time_budget:
                 why = (
-                    f"the next step needs about {est_dofs:,} unknowns (limit {max_dofs:,})"
+                    f"the next step needs about {est_dofs:,} unknowns, over max_dofs = {max_dofs:,}"
                     if est_dofs > max_dofs
-                    else f"the next step would take about {est_time:.0f} s beyond the "
-                    f"{time_budget:.0f} s budget"
+                    else f"the next step would take about {est_time:.3g} s more, beyond "
+                    f"time_budget = {time_budget:.3g} s ({elapsed:.3g} s used)"
+                )
+                reached = rungs[-1].rel_error
+                got = (
+                    f"reached {reached:.1e}"
+                    if math.isfinite(reached)
+                    else "one step solved, no error estimate yet"
                 )
                 partial = _finish(fixture, names, grounded, rungs, last_fs, t_start)
                 raise SolverError(
-                    f"could not reach rtol = {rtol:.1e}: {why}; reached "
-                    f"{rungs[-1].rel_error:.1e}. Loosen rtol, or raise time_budget / "
-                    "max_dofs",
+                    f"could not reach rtol = {rtol:.1e}: {why}; {got}. Loosen rtol (valid "
+                    "1e-9 to 1e-2), or raise time_budget (up to 86400 s) or max_dofs (up to "
+                    "1e8)",
                     rtol=rtol,
                     reached=rungs[-1].rel_error,
                     partial=partial,
@@ -484,8 +492,21 @@ def solve(
         if progress:
             progress(min(0.95, step / 4), f"solving level {level}, degree {degree}")
         t0 = time.perf_counter()
-        asm = _assembly(g, rtol, level, degree, options)
-        fs = fe.solve_unit_drives(asm, eps)
+        try:
+            asm = _assembly(g, rtol, level, degree, options)
+            fs = fe.solve_unit_drives(asm, eps)
+        except MemoryError:
+            # the machine ran out before max_dofs did: a clear stop, not a crash
+            partial = _finish(fixture, names, grounded, rungs, last_fs, t_start) if rungs else None
+            biggest = f"{rungs[-1].n_dofs:,}" if rungs else "none"
+            raise SolverError(
+                f"ran out of memory at refinement level {level}, degree {degree} (largest step "
+                f"solved: {biggest} unknowns); lower max_dofs (now {max_dofs:,}; valid 100 to "
+                "1e8) below what this machine holds, or loosen rtol (valid 1e-9 to 1e-2)",
+                rtol=rtol,
+                max_dofs=max_dofs,
+                partial=partial,
+            ) from None
         Ct = terminal_capacitance(
             fs.maxwell_energy, names, fixture.high, fixture.low, fixture.connection, grounded
         )
@@ -498,7 +519,8 @@ def solve(
         partial = _finish(fixture, names, grounded, rungs, last_fs, t_start)
         raise SolverError(
             f"could not reach rtol = {rtol:.1e} on the finest mesh; reached "
-            f"{rungs[-1].rel_error:.1e}",
+            f"{rungs[-1].rel_error:.1e}. Loosen rtol to above the error reached "
+            "(valid: 1e-9 to 1e-2)",
             rtol=rtol,
             partial=partial,
         )

@@ -20,6 +20,8 @@ from __future__ import annotations
 
 import argparse
 import contextlib
+import csv
+import io
 import json
 import math
 import os
@@ -67,6 +69,36 @@ def _rtol(text: str) -> float:
         raise argparse.ArgumentTypeError(f"{text!r} is not a number (e.g. 1e-6)") from None
     if not (math.isfinite(value) and 1e-9 <= value <= 1e-2):
         raise argparse.ArgumentTypeError(f"{text} is outside the valid range 1e-9 to 1e-2")
+    return value
+
+
+def _time_budget(text: str) -> float:
+    from .validate import LIMITS
+
+    lo, hi, _unit = LIMITS["time"]
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(
+            f"{text!r} is not a number of seconds (e.g. 120)"
+        ) from None
+    if not (math.isfinite(value) and lo < value <= hi):
+        raise argparse.ArgumentTypeError(
+            f"{text} s is outside the valid range {lo:g} s to {hi:g} s (and must be > 0)"
+        )
+    return value
+
+
+def _max_dofs(text: str) -> int:
+    from .validate import LIMITS
+
+    lo, hi, _unit = LIMITS["dofs"]
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number (e.g. 3000000)") from None
+    if not lo <= value <= hi:
+        raise argparse.ArgumentTypeError(f"{text} is outside the valid range {lo:.0f} to {hi:.0f}")
     return value
 
 
@@ -127,6 +159,20 @@ def build_parser() -> argparse.ArgumentParser:
     )
     sp.add_argument("fixture", help="a capbench-fixture/1 TOML file")
     common(sp, progress=True)
+    sp.add_argument(
+        "--time-budget",
+        type=_time_budget,
+        default=None,
+        metavar="SECONDS",
+        help="stop with an error before a refinement step that would exceed this (default 120)",
+    )
+    sp.add_argument(
+        "--max-dofs",
+        type=_max_dofs,
+        default=None,
+        metavar="N",
+        help="largest number of unknowns a refinement step may use (default 3000000)",
+    )
 
     sp = sub.add_parser(
         "extract",
@@ -285,10 +331,21 @@ def _si(q) -> dict:
 
 def _cmd_solve(args, out: _Out) -> int:
     from .capacitance import solve
+    from .errors import SolverError
     from .files import read_fixture
 
     fx = read_fixture(args.fixture)
-    sol = solve(fx, rtol=args.rtol, progress=out.solve_progress())
+    budgets = {}
+    if args.time_budget is not None:
+        budgets["time_budget"] = args.time_budget
+    if args.max_dofs is not None:
+        budgets["max_dofs"] = args.max_dofs
+    try:
+        sol = solve(fx, rtol=args.rtol, progress=out.solve_progress(), **budgets)
+    except SolverError as exc:
+        raise SolverError(
+            f"{exc} (command-line options: --rtol, --time-budget, --max-dofs)", **exc.details
+        ) from None
     c = sol.capacitance
     if out.as_json:
         out.json(
@@ -398,8 +455,14 @@ def _cmd_guard(args, out: _Out) -> int:
 
     fx = read_fixture(args.fixture)
     p = _guarded(fx, "guard")
-    eps = args.eps or [complex(fx.geometry.permittivities()["specimen"]).real]
-    thick = args.thickness or [p["specimen_thickness"]]
+    from . import validate
+
+    eps = [validate.check(e, "eps_r", f"--eps value {i + 1}") for i, e in enumerate(args.eps or [])]
+    eps = eps or [complex(fx.geometry.permittivities()["specimen"]).real]
+    thick = [
+        validate.length(t, f"--thickness value {i + 1}") for i, t in enumerate(args.thickness or [])
+    ]
+    thick = thick or [p["specimen_thickness"]]
     # options at their "absent" value (0 or None) stay out: guard_check range-checks lengths
     keys = ("unguarded_radius", "specimen_radius", "electrode_thickness", "edge_radius", "shield")
     cell = {k: p[k] for k in keys if p.get(k)}
@@ -684,7 +747,8 @@ def _cmd_log(args, out: _Out) -> int:
                 )
             return EXIT_OK
         text = log.export_csv(None if args.csv == "-" else args.csv, specimen=args.specimen)
-        n = max(0, text.count("\n") - 1)
+        # rows, not line breaks: a quoted cell may hold a line break of its own
+        n = max(0, len(list(csv.reader(io.StringIO(text)))) - 1)
         if args.csv == "-":
             out.stdout.write(text)
         elif out.as_json:
@@ -718,6 +782,10 @@ def demo(stdout: TextIO | None = None) -> int:
     stdout.write("Try 'capbench --help' for the commands.\n")
     stdout.write(CAUTION_LINE + "\n")
     return EXIT_OK
+
+
+def _one_line(exc: BaseException) -> str:
+    return " ".join(str(exc).split())
 
 
 _COMMANDS = {
@@ -771,7 +839,8 @@ def main(
             )
             return _COMMANDS[args.command](args, out)
         except CapbenchError as exc:
-            stderr.write(f"capbench: error: {exc}\n")
+            # one line: a message quoting a file's text may hold line breaks
+            stderr.write(f"capbench: error: {_one_line(exc)}\n")
             return EXIT_INPUT
         except KeyboardInterrupt:
             stderr.write("capbench: interrupted\n")
@@ -781,13 +850,13 @@ def main(
                 sys.stdout = open(os.devnull, "w")  # no flush error at exit
             return EXIT_OK
         except OSError as exc:  # e.g. an output folder that cannot be written
-            stderr.write(f"capbench: error: {exc}\n")
+            stderr.write(f"capbench: error: {_one_line(exc)}\n")
             return EXIT_INPUT
         except Exception as exc:
             if os.environ.get("CAPBENCH_DEBUG"):
                 raise
             stderr.write(
-                f"capbench: internal error: {type(exc).__name__}: {exc} (please report it; "
-                "set CAPBENCH_DEBUG=1 for the traceback)\n"
+                f"capbench: internal error: {type(exc).__name__}: {_one_line(exc)} (please "
+                "report it; set CAPBENCH_DEBUG=1 for the traceback)\n"
             )
             return EXIT_INTERNAL

@@ -26,7 +26,7 @@ from .errors import InputError
 from .geometry import Fixture
 from .guard import _gap_factor
 from .rigs import SPECIMEN, Specimen, parallel_discs
-from .units import EPS0, Q_, to_si
+from .units import EPS0, Q_
 
 #: where the unguarded edge correction comes from (coefficients recalled, not read)
 EDGE_CAPACITANCE_SOURCE = (
@@ -187,9 +187,7 @@ class Comparison:
 def _optional_capacitance(value: Any, name: str) -> float:
     if value is None:
         return 0.0
-    if to_si(value, "capacitance", name) == 0:
-        return 0.0
-    return v.check(value, "capacitance", name)
+    return v.check_or_zero(value, "capacitance", name)
 
 
 def measured_vs_ideal(

@@ -77,6 +77,7 @@ import pint
 from threadpoolctl import threadpool_limits
 from uncertainties.core import AffineScalarFunc
 
+from . import validate
 from .capacitance import solve
 from .errors import ExtractionError, GeometryError, InputError
 from .geometry import MEDIUM, Fixture
@@ -117,6 +118,15 @@ _RESERVED = {
     "shield",
     "n_fingers",
 }
+
+
+def _shown(eps: float) -> str:
+    """eps_r for a message: 6 digits, more where 6 would round onto a limit (a result of
+    0.9999999 shown as "1, outside 1 to 10000" reads as a contradiction)."""
+    text = f"{eps:.6g}"
+    if text in (f"{EPS_MIN:.6g}", f"{EPS_MAX:.6g}") and eps not in (EPS_MIN, EPS_MAX):
+        text = f"{eps:.12g}"
+    return text
 
 
 def _n(x: Any) -> float:
@@ -264,22 +274,41 @@ def ideal_contacting(capacitance: Any, thickness: Any, area: Any) -> Any:
     c = si_value(capacitance, "capacitance", "capacitance", limits="capacitance")
     t = si_value(thickness, "length", "thickness", limits="length")
     a = _area(area)
-    return _contacting_formula(c, t, a)
+    return _closed_result(_contacting_formula(c, t, a), "contacting")
+
+
+def _closed_result(eps: Any, label: str) -> Any:
+    """A closed form's eps_r, refused outside the valid range 1 to 1e4 (a plausible but
+    wrong number from readings or dimensions in the wrong unit)."""
+    e = _n(eps)
+    if not (math.isfinite(e) and EPS_MIN <= e <= EPS_MAX):
+        raise ExtractionError(
+            f"the {label} readings give eps_r = {_shown(e)}, outside the valid range "
+            f"{EPS_MIN:g} to {EPS_MAX:g}: check the readings' units and order, the thickness "
+            "and the area",
+            eps_r=e,
+            valid=(EPS_MIN, EPS_MAX),
+        )
+    validate.permittivity_result(e, f"{label}: eps_r")
+    return eps
 
 
 def _area(area: Any) -> Any:
-    if isinstance(area, pint.Quantity):
+    """An electrode area in m**2 (a quantity, "500 mm**2", a number in m**2, or a ufloat),
+    its nominal value in the range of :data:`capbench.validate.LIMITS` ["area"]."""
+    if isinstance(area, pint.Quantity) and isinstance(area.magnitude, AffineScalarFunc):
         try:
             a = area.to("m**2").magnitude
         except pint.DimensionalityError:
-            raise InputError(f"area = {area!r} is not an area; give it in m**2 or mm**2") from None
-    elif isinstance(area, str):
-        a = _area(Q_(area))
-    else:
-        a = area
-    if not _n(a) > 0:
-        raise InputError(f"area = {area!r} must be > 0 m**2", value=area)
-    return a
+            raise InputError(
+                f"area = {area:~P} is not an area; give it in m**2 or mm**2", name="area"
+            ) from None
+        validate.check(a.n, "area", "area")
+        return a
+    if isinstance(area, AffineScalarFunc):
+        validate.check(area.n, "area", "area")
+        return area
+    return validate.check(area, "area", "area")
 
 
 def ideal_air_gap(
@@ -385,11 +414,12 @@ def _two_fluid_nominal(c1: Any, c1s: Any, c2: Any, c2s: Any, e1: Any, e2: Any):
     try:
         eps, x, cv, cp = _two_fluid_formula(*vals)
     except ZeroDivisionError:
+        shown = ", ".join(f"{c * 1e12:.6g} pF" for c in vals[:4])
         raise ExtractionError(
-            "the four two-fluid readings are inconsistent with a specimen between the "
-            "electrodes (a zero denominator: the specimen fills no fraction of the spacing, "
-            "or a reading equals the stray capacitance); check their order (fluid 1, fluid "
-            "1 with specimen, fluid 2, fluid 2 with specimen)",
+            f"the four two-fluid readings ({shown}) are inconsistent with a specimen "
+            "between the electrodes (a zero denominator: the specimen fills no fraction of "
+            "the spacing, or a reading equals the stray capacitance); check their order "
+            "(fluid 1, fluid 1 with specimen, fluid 2, fluid 2 with specimen)",
             readings=vals[:4],
         ) from None
     _check_two_fluid_result(eps, x)
@@ -408,8 +438,9 @@ def ideal_liquid(empty: Any, filled: Any, empty_eps_r: Any = 1.0, stray: Any = 0
     ce = si_value(empty, "capacitance", "empty reading", limits="capacitance")
     cf = si_value(filled, "capacitance", "filled reading", limits="capacitance")
     cp = _stray_value(stray)
+    e0 = si_value(empty_eps_r, "dimensionless", "empty_eps_r", limits="eps_r")
     _check_liquid(ce, cf, cp)
-    return _liquid_formula(ce, cf, empty_eps_r, cp)
+    return _closed_result(_liquid_formula(ce, cf, e0, cp), "liquid cell")
 
 
 # --------------------------------------------------------------------------- checks
@@ -448,7 +479,7 @@ def _check_micrometer(t: Any, s1: Any, s2: Any, ratio: Any) -> None:
     if tn > s1n * (1 + 1e-9):
         raise ExtractionError(
             f"the specimen ({tn * 1e3:.6g} mm) is thicker than the loaded spacing "
-            f"({s1n * 1e3:.6g} mm)",
+            f"({s1n * 1e3:.6g} mm); valid: thickness <= loaded spacing",
             thickness=tn,
             spacing=s1n,
         )
@@ -494,7 +525,8 @@ def _check_two_fluid_result(eps: float, x: float) -> None:
         )
     if not (math.isfinite(eps) and EPS_MIN <= eps <= EPS_MAX):
         raise ExtractionError(
-            f"the four readings imply eps_r = {eps:.6g}, outside {EPS_MIN:g} to {EPS_MAX:g}",
+            f"the four readings imply eps_r = {_shown(eps)}, outside the valid range "
+            f"{EPS_MIN:g} to {EPS_MAX:g}",
             eps_r=eps,
         )
 
@@ -511,7 +543,7 @@ def _check_liquid(ce: Any, cf: Any, cp: Any) -> None:
     if _n(cp) >= _n(ce):
         raise ExtractionError(
             f"the stray capacitance ({_n(cp) * 1e12:.6g} pF) is not below the empty "
-            f"reading ({_n(ce) * 1e12:.6g} pF)",
+            f"reading ({_n(ce) * 1e12:.6g} pF); valid: 0 pF to below the empty reading",
             stray=_n(cp),
             empty=_n(ce),
         )
@@ -570,6 +602,9 @@ def _loss(
         )
     if dissipation is not None:
         d = _readings(dissipation, "dimensionless", f"{name} dissipation factor", "loss")
+        for x in d:
+            if validate.dissipation(_n(x), f"{name} dissipation factor"):
+                break
         return _broadcast(d, n, f"{name} dissipation factor")
     if conductance is not None:
         g = _broadcast(
@@ -582,7 +617,14 @@ def _loss(
                 f"{name}: a conductance reading needs its frequency (D = G / (2 pi f C))",
                 name=name,
             )
-        return [gi / (2 * math.pi * f * c) for gi, f, c in zip(g, freqs, caps, strict=True)]
+        out = [gi / (2 * math.pi * f * c) for gi, f, c in zip(g, freqs, caps, strict=True)]
+        for i, x in enumerate(out):
+            # D from G: the same limits as a D read directly
+            validate.check(_n(x), "loss", f"{name} D = G / (2 pi f C) [{i}]", positive=False)
+        for x in out:
+            if validate.dissipation(_n(x), f"{name} D = G / (2 pi f C)"):
+                break
+        return out
     return None
 
 
@@ -590,8 +632,7 @@ def _stray_value(stray: Any) -> Any:
     if stray is None:
         return 0.0
     c = si_value(stray, "capacitance", "stray capacitance")
-    if _n(c) < 0:
-        raise InputError(f"stray capacitance = {_n(c) * 1e12:.6g} pF must be >= 0 pF", value=_n(c))
+    validate.check_or_zero(_n(c), "capacitance", "stray capacitance")
     return c
 
 
@@ -1192,10 +1233,12 @@ def _point(
     where = f" at {freq:.6g} Hz" if freq is not None else ""
     if not EPS_MIN <= _n(re) <= EPS_MAX:
         raise ExtractionError(
-            f"the {label} readings{where} give eps_r = {_n(re):.6g}, outside {EPS_MIN:g} to "
+            f"the {label} readings{where} give eps_r = {_shown(_n(re))}, outside {EPS_MIN:g} to "
             f"{EPS_MAX:g}: check the readings' units and order, the thickness and the area",
             eps_r=_n(re),
+            valid=(EPS_MIN, EPS_MAX),
         )
+    validate.permittivity_result(_n(re), f"{label}: eps_r{where}")
     if lossy:
         loss = -eps_u.im
         tan = loss / re
@@ -1250,6 +1293,20 @@ def _medium_of(fixture: Fixture) -> complex:
     return complex(fixture.geometry.medium_eps_r)
 
 
+def _quasi_static(fx: Fixture, points: list[Point]) -> None:
+    """Warn at each frequency where the fixture is over 1/20 of the wavelength in its
+    densest dielectric (:func:`capbench.validate.quasi_static`). This is the one place
+    in an extraction where the frequency and the fixture's size are both known."""
+    size = fx.geometry.size()
+    regions = max(complex(e).real for e in fx.geometry.permittivities().values())
+    for p in points:
+        if p.frequency is None:
+            continue
+        eps = max(regions, _n(p.eps_r))
+        if validate.quasi_static(p.frequency, size, eps, fx.name or fx.kind):
+            break  # one warning names the frequency above which results fail
+
+
 def _finish(
     method: str,
     fx: Fixture,
@@ -1259,6 +1316,7 @@ def _finish(
     extras: tuple[tuple[str, Any], ...] = (),
 ) -> Extraction:
     rel = max(fem.rel.values(), default=0.0) if fem else 0.0
+    _quasi_static(fx, points)
     return Extraction(
         method,
         fx,
@@ -1342,7 +1400,7 @@ def contacting(
         if _n(c) <= _n(cs):
             raise ExtractionError(
                 f"the reading {_n(c) * 1e12:.6g} pF is not above the stray capacitance "
-                f"{_n(cs) * 1e12:.6g} pF",
+                f"{_n(cs) * 1e12:.6g} pF (valid: a reading above the stray capacitance)",
                 reading=_n(c),
             )
     t = (
@@ -2009,7 +2067,11 @@ def _two_fluid_fem(
             "four readings may not fit the fixture (check the spacing and the fluids)",
         )
     if not (EPS_MIN <= eps <= EPS_MAX):
-        raise ExtractionError(f"two-fluid: eps_r = {eps:.6g} outside {EPS_MIN:g} to {EPS_MAX:g}")
+        raise ExtractionError(
+            f"two-fluid: eps_r = {_shown(eps)}, outside the valid range {EPS_MIN:g} to {EPS_MAX:g}",
+            eps_r=eps,
+            valid=(EPS_MIN, EPS_MAX),
+        )
     # linearised propagation: theta = theta0 - J^-1 R(theta0, x)
     dims0 = {"thickness": t, "spacing": spacing, **extra0}
     delta = solver.error_input(role)

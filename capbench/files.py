@@ -68,7 +68,7 @@ from .geometry import (
     RoundedRect,
 )
 from .uncertainty import AccuracySpec
-from .units import parse_quantity, to_si
+from .units import NUMBER_PATTERN, parse_quantity, to_si
 
 FIXTURE_SCHEMA = "capbench-fixture/1"
 SCHEMA = "capbench-measurement/1"
@@ -113,6 +113,20 @@ _METHOD_OPTIONS = {
 }
 
 
+#: longest refusal message; a longer one (quoting a huge value or key) keeps its start
+#: and end, so it still names the file, line, key and what would be valid
+MAX_MESSAGE_CHARS = 600
+
+
+def _error(message: str, **details: Any) -> FileFormatError:
+    """A FileFormatError whose message quotes a piece of a huge value, not all of it (a
+    600 kB array once came back whole in a one-line refusal)."""
+    if len(message) > MAX_MESSAGE_CHARS:
+        cut = len(message) - 400 - 150
+        message = f"{message[:400]} [... {cut:,} characters ...] {message[-150:]}"
+    return FileFormatError(message, **details)
+
+
 # --------------------------------------------------------------------------- reading TOML
 
 
@@ -120,13 +134,13 @@ def _read_bytes(path: Path, limit: int, what: str) -> bytes:
     try:
         size = path.stat().st_size
     except FileNotFoundError:
-        raise FileFormatError(f"{path}: no such {what}", file=str(path)) from None
+        raise _error(f"{path}: no such {what}", file=str(path)) from None
     except OSError as exc:
-        raise FileFormatError(f"{path}: cannot read the {what}: {exc}", file=str(path)) from None
+        raise _error(f"{path}: cannot read the {what}: {exc}", file=str(path)) from None
     if not path.is_file():
-        raise FileFormatError(f"{path}: is not a file", file=str(path))
+        raise _error(f"{path}: is not a file", file=str(path))
     if size > limit:
-        raise FileFormatError(
+        raise _error(
             f"{path.name}: {size:,} bytes is over the {limit:,}-byte limit of a {what}",
             file=str(path),
             value=size,
@@ -135,31 +149,45 @@ def _read_bytes(path: Path, limit: int, what: str) -> bytes:
     try:
         return path.read_bytes()
     except OSError as exc:
-        raise FileFormatError(f"{path}: cannot read the {what}: {exc}", file=str(path)) from None
+        raise _error(f"{path}: cannot read the {what}: {exc}", file=str(path)) from None
 
 
 def _decode(data: bytes, source: str) -> str:
     try:
         return data.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
-        raise FileFormatError(
+        raise _error(
             f"{source}: byte {exc.start} is not UTF-8 text; save the file as UTF-8",
             file=source,
             value=exc.start,
         ) from None
 
 
-def _depth(obj: Any, level: int = 0) -> int:
-    if isinstance(obj, Mapping):
-        return max((_depth(v, level + 1) for v in obj.values()), default=level + 1)
-    if isinstance(obj, list):
-        return max((_depth(v, level + 1) for v in obj), default=level + 1)
-    return level
+def _depth(obj: Any, limit: int = MAX_DEPTH) -> int:
+    """Nesting depth of tables and arrays, counted without recursion and stopping once
+    past ``limit`` (a recursive count overflowed Python's stack on a file of a few
+    hundred nested arrays that tomllib itself could still read)."""
+    deepest = 0
+    stack = [(obj, 0)]
+    while stack:
+        item, level = stack.pop()
+        if isinstance(item, Mapping):
+            children = item.values()
+        elif isinstance(item, list):
+            children = item
+        else:
+            deepest = max(deepest, level)
+            continue
+        deepest = max(deepest, level + 1)
+        if deepest > limit:
+            return deepest
+        stack.extend((child, level + 1) for child in children)
+    return deepest
 
 
 def _parse_toml(text: str, source: str) -> dict:
     if len(text.encode("utf-8")) > MAX_TOML_BYTES:
-        raise FileFormatError(
+        raise _error(
             f"{source}: over the {MAX_TOML_BYTES:,}-byte limit of a TOML file",
             file=source,
             valid=(0, MAX_TOML_BYTES),
@@ -167,17 +195,22 @@ def _parse_toml(text: str, source: str) -> dict:
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        raise FileFormatError(f"{source}: not valid TOML: {exc}", file=source) from None
+        raise _error(f"{source}: not valid TOML: {exc}", file=source) from None
+    except ValueError as exc:
+        # tomllib lets Python's own limits through, e.g. an integer of more than 4300
+        # digits ("Exceeds the limit ... for integer string conversion")
+        raise _error(f"{source}: not a value capbench can read: {exc}", file=source) from None
     except RecursionError:
-        raise FileFormatError(
-            f"{source}: nested too deeply to read (at most {MAX_DEPTH} levels)",
+        raise _error(
+            f"{source}: nested too deeply to read; valid: at most {MAX_DEPTH} levels",
             file=source,
             valid=(0, MAX_DEPTH),
         ) from None
     depth = _depth(data)
     if depth > MAX_DEPTH:
-        raise FileFormatError(
-            f"{source}: tables and arrays nested {depth} deep; at most {MAX_DEPTH} levels",
+        raise _error(
+            f"{source}: tables and arrays nested at least {depth} deep; valid: at most "
+            f"{MAX_DEPTH} levels",
             file=source,
             value=depth,
             valid=(0, MAX_DEPTH),
@@ -185,7 +218,9 @@ def _parse_toml(text: str, source: str) -> dict:
     return data
 
 
-_HEADER = re.compile(r"^\s*\[\[?\s*([^\]]+?)\s*\]\]?\s*(?:#.*)?$")
+# a [table] or [[array]] header line; no two parts can match the same characters (the
+# former "\s*([^\]]+?)\s*" took minutes on a line of "[" and a few thousand spaces)
+_HEADER = re.compile(r"^\s*\[\[?([^\]]*)\]\]?\s*(?:#.*)?$")
 
 
 def _line_of(text: str, section: str, key: str | None) -> int | None:
@@ -193,10 +228,13 @@ def _line_of(text: str, section: str, key: str | None) -> int | None:
     where the section starts when ``key`` is None; None when not found."""
     current = ""
     want = re.compile(rf"^\s*[\"']?{re.escape(key)}[\"']?\s*=") if key else None
-    for i, line in enumerate(text.splitlines(), start=1):
+    # TOML's only line break is LF (CRLF ends in it); str.splitlines would also break at
+    # form feeds and U+2028 inside strings and comments and miscount the lines
+    for i, line in enumerate(text.split("\n"), start=1):
+        line = line.removesuffix("\r")
         m = _HEADER.match(line)
-        if m and "=" not in line.split("]")[0]:
-            current = m.group(1).replace('"', "").replace(" ", "")
+        if m and "=" not in line.split("]")[0] and m.group(1).strip():
+            current = "".join(m.group(1).replace('"', "").split())
             if key is None and current == section:
                 return i
             continue
@@ -223,7 +261,7 @@ class _Doc:
         return f"{self.source}{at}: {name}"
 
     def error(self, section: str, key: str | None, message: str, **details: Any) -> FileFormatError:
-        return FileFormatError(
+        return _error(
             f"{self.where(section, key)} {message}",
             file=self.source,
             key=f"{section}.{key}" if section and key else (key or section),
@@ -303,7 +341,7 @@ _UNIT_EXAMPLE = {
 }
 
 
-_UNITLESS = re.compile(r"^[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?$")
+_UNITLESS = re.compile(rf"^{NUMBER_PATTERN}$")
 
 
 def _zero(value: Any) -> bool:
@@ -332,7 +370,12 @@ def _quantity(value: Any, kind: str, fail) -> float:
         raise fail(f"= {value!r}: {text}", value=value) from None
 
 
-_COMPLEX = re.compile(r"^[-+]?[0-9.eE+-]+(?:[-+][0-9.eE+-]*[jJ])?$")
+# eps' or eps' - eps''j; each part an unambiguous number (linear-time matching)
+_COMPLEX = re.compile(
+    rf"^{NUMBER_PATTERN}(?:[-+](?:(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)?[jJ])?$"
+)
+#: longest text read as a number or a permittivity
+MAX_NUMBER_CHARS = 64
 
 
 def _eps(value: Any, fail) -> complex | float:
@@ -344,7 +387,7 @@ def _eps(value: Any, fail) -> complex | float:
     elif isinstance(value, str):
         compact = value.replace(" ", "")
         try:
-            if not _COMPLEX.match(compact):
+            if len(compact) > MAX_NUMBER_CHARS or not _COMPLEX.match(compact):
                 raise ValueError(compact)
             z = complex(compact)
         except ValueError:
@@ -463,7 +506,7 @@ def fixture_to_toml(fixture: Fixture, comment: str = "") -> str:
         to within 1e-15 relative).
     """
     if not isinstance(fixture, Fixture):
-        raise FileFormatError(
+        raise _error(
             f"fixture_to_toml needs a capbench Fixture, got {type(fixture).__name__}",
             value=type(fixture).__name__,
         )
@@ -482,7 +525,7 @@ def fixture_to_toml(fixture: Fixture, comment: str = "") -> str:
     if fixture.kind == "custom":
         return "\n".join(head + _custom_lines(fixture)) + "\n"
     if fixture.kind not in _builders():
-        raise FileFormatError(
+        raise _error(
             f"fixture kind {fixture.kind!r} has no builder; valid: {sorted(_builders())} "
             "or 'custom'",
             value=fixture.kind,
@@ -560,7 +603,7 @@ def _shape_fields(shape: Any) -> list[tuple[str, str]]:
         )
         return [("shape", '"compound"'), ("parts", f"[{parts}]")]
     else:  # pragma: no cover - every shape of geometry is handled above
-        raise FileFormatError(f"cannot write a shape of type {type(shape).__name__}")
+        raise _error(f"cannot write a shape of type {type(shape).__name__}")
     return [("shape", f'"{kind}"')] + [(k, _mm(getattr(shape, k))) for k in keys]
 
 
@@ -616,9 +659,7 @@ def fixture_from_toml(text: str, source: str = "<fixture>") -> Fixture:
         Naming the source, the line, the key, the bad value and what would be valid.
     """
     if not isinstance(text, str):
-        raise FileFormatError(
-            f"{source}: fixture text must be str, got {type(text).__name__}", file=source
-        )
+        raise _error(f"{source}: fixture text must be str, got {type(text).__name__}", file=source)
     doc = _Doc(text, source)
     top = _Table(doc, doc.data, "")
     schema = top.get("schema", None)
@@ -952,14 +993,16 @@ def read_readings(path: str | os.PathLike) -> tuple[Reading, ...]:
 def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, ...]:
     """Read a readings table from CSV text (see :func:`read_readings`)."""
     numbered = []
-    for i, line in enumerate(text.splitlines(), start=1):
+    # the line breaks of CSV (and of editors) only: a form feed or U+2028 inside a cell is
+    # part of the cell, not a new line that would shift every line number after it
+    for i, line in enumerate(re.split(r"\r\n|\r|\n", text), start=1):
         stripped = line.strip()
         if not stripped:
             continue
         if stripped.startswith("#"):
             m = re.match(r"#\s*schema\s*:\s*(\S+)", stripped)
             if m and m.group(1) != READINGS_SCHEMA:
-                raise FileFormatError(
+                raise _error(
                     f"{source}, line {i}: schema {m.group(1)!r}; this reader knows "
                     f"{READINGS_SCHEMA!r}",
                     file=source,
@@ -969,21 +1012,38 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
             continue
         numbered.append((i, line))
         if len(numbered) > MAX_ROWS + 1:
-            raise FileFormatError(
+            raise _error(
                 f"{source}: more than {MAX_ROWS:,} readings; split the table",
                 file=source,
                 valid=(1, MAX_ROWS),
             )
     if len(numbered) < 2:
-        raise FileFormatError(
+        raise _error(
             f"{source}: needs a header row (e.g. 'frequency [Hz],capacitance [pF]') and at "
             "least one reading",
             file=source,
         )
-    try:
-        rows = list(csv.reader([ln for _, ln in numbered], strict=True))
-    except csv.Error as exc:
-        raise FileFormatError(f"{source}: not a valid CSV table: {exc}", file=source) from None
+    rows = []
+    for i, ln in numbered:
+        # one line, one row: a quoted cell may not run on to the next line (the row
+        # count would no longer match the line numbers the messages give)
+        try:
+            parsed = list(csv.reader([ln], strict=True))
+        except csv.Error as exc:
+            raise _error(
+                f"{source}, line {i}: not a valid CSV row ({exc}); write one reading per line, "
+                "plain numbers separated by commas",
+                file=source,
+                line=i,
+            ) from None
+        if len(parsed) != 1:
+            raise _error(
+                f"{source}, line {i}: a quoted cell runs past the end of the line; write one "
+                "reading per line, plain numbers separated by commas",
+                file=source,
+                line=i,
+            )
+        rows.append(parsed[0])
     header_line = numbered[0][0]
     columns = []
     seen = set()
@@ -992,7 +1052,7 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
         name = " ".join(name.lower().split())
         unit = unit.rstrip().rstrip("]").strip()
         if name not in _COLUMNS:
-            raise FileFormatError(
+            raise _error(
                 f"{source}, line {header_line}: column {j} is {head.strip()!r}; valid "
                 f"columns: {', '.join(_column_help())}",
                 file=source,
@@ -1001,7 +1061,7 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
             )
         spec = _COLUMNS[name]
         if spec[0] in seen:
-            raise FileFormatError(
+            raise _error(
                 f"{source}, line {header_line}: column {name!r} appears twice",
                 file=source,
                 line=header_line,
@@ -1012,7 +1072,7 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
             try:
                 to_si(f"1 {unit}", spec[1], name)
             except CapbenchError:
-                raise FileFormatError(
+                raise _error(
                     f"{source}, line {header_line}: column {j} {head.strip()!r}: {unit!r} is "
                     f"not a unit of {spec[1]} (e.g. [{spec[2] or '-'}]"
                     f"{', [pF]' if spec[1] == 'capacitance' else ''})",
@@ -1022,7 +1082,7 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
                 ) from None
         elif spec[1] != "dimensionless":
             example = "pF" if spec[1] == "capacitance" else spec[2]
-            raise FileFormatError(
+            raise _error(
                 f"{source}, line {header_line}: column {j} {head.strip()!r} has no unit; "
                 f"write it in brackets, e.g. '{name} [{example}]'",
                 file=source,
@@ -1032,7 +1092,7 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
         columns.append((spec, unit))
     for need in ("frequency", "capacitance"):
         if need not in seen:
-            raise FileFormatError(
+            raise _error(
                 f"{source}, line {header_line}: no {need!r} column; the header has "
                 f"{[h.strip() for h in rows[0]]}",
                 file=source,
@@ -1042,7 +1102,7 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
     for (i, _line), row in zip(numbered[1:], rows[1:], strict=True):
         if len(row) != len(columns):
             hint = " (a decimal comma? write 20.61, not 20,61)" if len(row) > len(columns) else ""
-            raise FileFormatError(
+            raise _error(
                 f"{source}, line {i}: {len(row)} values, the header has {len(columns)}{hint}",
                 file=source,
                 line=i,
@@ -1055,14 +1115,21 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
             if field_name != "frequency" and field_name != "capacitance" and text_value == "":
                 continue  # an optional reading left blank
             try:
-                if not re.fullmatch(r"[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?", text_value):
+                if len(text_value) > MAX_NUMBER_CHARS or not _UNITLESS.match(text_value):
                     raise ValueError(text_value)
                 value = to_si(f"{text_value} {unit or default}".strip(), kind, field_name)
             except (ValueError, CapbenchError):
-                raise FileFormatError(
-                    f"{source}, line {i}: {field_name.replace('_', ' ')} = {text_value!r} is "
-                    f"not a number (write plain numbers such as 20.613 or 1e3; the unit goes "
-                    f"in the header)",
+                formula = text_value.startswith(("=", "@")) or (
+                    text_value[:1] in "+-" and not re.match(r"[-+][\d.]", text_value)
+                )
+                what = (
+                    "looks like a spreadsheet formula; capbench reads only"
+                    if formula
+                    else "is not a number; write"
+                )
+                raise _error(
+                    f"{source}, line {i}: {field_name.replace('_', ' ')} = {text_value[:80]!r} "
+                    f"{what} plain numbers such as 20.613 or 1e3 (the unit goes in the header)",
                     file=source,
                     line=i,
                     key=field_name,
@@ -1109,7 +1176,7 @@ def _check_row(vals: dict[str, float], source: str, line: int, row: list[str]) -
             if key in ("frequency", "capacitance", "empty_capacitance"):
                 validate.check(value, limits[key], key.replace("_", " "))
         except CapbenchError as exc:
-            raise FileFormatError(
+            raise _error(
                 f"{source}, line {line}: {exc}", file=source, line=line, key=key, value=value
             ) from None
 
@@ -1158,7 +1225,7 @@ class Measurement:
         """The readings taken at ``frequency`` (Hz)."""
         rows = tuple(r for r in self.readings if r.frequency == frequency)
         if not rows:
-            raise FileFormatError(
+            raise _error(
                 f"{self.path.name}: no readings at {frequency:g} Hz; the file has "
                 f"{list(self.frequencies)} Hz",
                 value=frequency,
@@ -1393,8 +1460,15 @@ def read_measurement(path: str | os.PathLike, *, with_readings: bool = True) -> 
         )
     options = _method_options(meth, method)
     micrometer = spec.quantity("micrometer", "length", default="0 m")
-    if micrometer < 0:
-        raise spec.error("micrometer", f"= {spec.get('micrometer')!r} must be >= 0 mm")
+    if micrometer < 0 or micrometer > 0.1 * min(readings_t):
+        # a half-width beyond a tenth of the thickness is a unit typed wrong, not a
+        # micrometer's calibration
+        raise spec.error(
+            "micrometer",
+            f"= {spec.get('micrometer')!r}; valid: 0 mm to {0.1 * min(readings_t) * 1e3:.6g} mm "
+            "(a tenth of the thinnest reading)",
+            value=micrometer,
+        )
     temperature = _in_range(
         cond, "temperature", cond.quantity("temperature", "temperature"), "temperature"
     )
@@ -1451,7 +1525,7 @@ def _measurement_fixture(fix: _Table, path: Path) -> Fixture:
         try:
             return read_fixture(target)
         except FileFormatError as exc:
-            raise FileFormatError(
+            raise _error(
                 f"{fix.doc.where('fixture', 'file')} = {name!r}: {exc}",
                 file=str(target),
                 key="fixture.file",
@@ -1491,7 +1565,7 @@ def _measurement_readings(meth: _Table, path: Path, name: str, method: str) -> t
     for key in need:
         missing = [r.line for r in readings if getattr(r, key) is None]
         if missing:
-            raise FileFormatError(
+            raise _error(
                 f"{target.name}, line {missing[0]}: the {method} method needs a "
                 f"{key.replace('_', ' ')!r} reading in every row",
                 file=target.name,
@@ -1502,7 +1576,7 @@ def _measurement_readings(meth: _Table, path: Path, name: str, method: str) -> t
         have = [getattr(r, key) is not None for r in readings]
         if any(have) and not all(have):
             line = readings[have.index(False)].line
-            raise FileFormatError(
+            raise _error(
                 f"{target.name}, line {line}: {key.replace('_', ' ')} is blank here but "
                 "given in other rows; give it in every row or in none",
                 file=target.name,
@@ -1510,7 +1584,7 @@ def _measurement_readings(meth: _Table, path: Path, name: str, method: str) -> t
                 key=key,
             )
     if method == "contacting" and any(r.empty_capacitance is not None for r in readings):
-        raise FileFormatError(
+        raise _error(
             f"{target.name}: the contacting method takes no 'empty capacitance' column",
             file=target.name,
         )
@@ -1551,31 +1625,39 @@ def _accuracy(table: _Table, key: str, required: bool = True) -> AccuracySpec | 
 # --------------------------------------------------------------------------- export
 
 
-_FORMULA_START = ("=", "+", "-", "@", "\t", "\r", "|", "%")
+_FORMULA_START = ("=", "+", "-", "@", "\t", "\r", "\n", "|", "%", "\uff1d", "\uff0b", "\uff0d")
 
 
 def safe_cell(value: Any) -> Any:
     """A value made safe for a spreadsheet: text that a spreadsheet would run as a
-    formula (starting with = + - @ tab CR | %) gets a leading apostrophe; numbers pass.
+    formula (starting with = + - @ tab CR LF | %, their full-width forms, or any of
+    these after leading spaces) gets a leading apostrophe; numbers pass.
 
     Notes
     -----
     The usual defence against CSV formula injection (common practice, no source).
+    Leading spaces are looked through because some spreadsheets trim them before
+    deciding whether a cell is a formula.
     """
     if value is None:
         return ""
     if isinstance(value, (int, float)) and not isinstance(value, bool):
         return value
     text = str(value)
-    if text.startswith(_FORMULA_START):
+    if text.lstrip(" ").startswith(_FORMULA_START):
         return "'" + text
     return text
 
 
 def to_csv(header: list[str], rows: list[list[Any]]) -> str:
-    """CSV text of a table, every text cell through :func:`safe_cell`."""
+    """CSV text of a table, every text cell through :func:`safe_cell` and in quotes.
+
+    Every text cell is quoted: with the minimal quoting a cell holding a bare carriage
+    return went out unquoted, and a spreadsheet that breaks the row there would read
+    what follows (``x\r=HYPERLINK(...)``) as a new, un-neutralised cell.
+    """
     buf = io.StringIO()
-    w = csv.writer(buf, lineterminator="\n")
+    w = csv.writer(buf, lineterminator="\n", quoting=csv.QUOTE_NONNUMERIC)
     w.writerow([safe_cell(h) for h in header])
     for row in rows:
         w.writerow([safe_cell(c) for c in row])

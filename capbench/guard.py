@@ -883,6 +883,9 @@ def edge_field(
     """
     if solution.field is None:
         raise SolverError("this solution carries no field; solve the fixture again")
+    if isinstance(samples, bool) or not isinstance(samples, int) or not 8 <= samples <= 100_000:
+        # each sample is a point located in the mesh: a huge count is a memory fault
+        raise InputError(f"samples = {samples!r}; valid: a whole number 8 to 100000", value=samples)
     fx = solution.fixture
     g = fx.geometry
     axi = g.axisymmetric

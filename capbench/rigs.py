@@ -101,7 +101,11 @@ def _electrode(x0, y0, x1, y1, thickness, edge_radius, face_up: bool):
     face at y0 (face_up False) or y1 is the active face."""
     if thickness == 0:
         if edge_radius:
-            raise GeometryError("edge_radius needs an electrode thickness > 0 m", value=edge_radius)
+            raise GeometryError(
+                f"edge_radius = {edge_radius * 1e3:.6g} mm needs an electrode thickness > 0 mm "
+                "(the thickness is 0: thin plates have no edge to round)",
+                value=edge_radius,
+            )
         y = y0
         return Plate(x0, y, x1, y)
     ya, yb = (y0 - thickness, y0) if face_up else (y0, y0 + thickness)
@@ -109,7 +113,7 @@ def _electrode(x0, y0, x1, y1, thickness, edge_radius, face_up: bool):
         if edge_radius > thickness / 2:
             raise GeometryError(
                 f"edge radius = {edge_radius * 1e3:.6g} mm exceeds half the electrode "
-                f"thickness ({thickness * 1e3 / 2:.6g} mm)",
+                f"thickness; valid: 0 mm to {thickness * 1e3 / 2:.6g} mm",
                 value=edge_radius,
                 valid=(0.0, thickness / 2),
             )
@@ -152,7 +156,8 @@ def parallel_discs(
         if spec.thickness + spec.lift > d * (1 + 1e-12):
             raise GeometryError(
                 f"specimen thickness {spec.thickness * 1e3:.6g} mm (+ lift "
-                f"{spec.lift * 1e3:.6g} mm) exceeds the gap {d * 1e3:.6g} mm",
+                f"{spec.lift * 1e3:.6g} mm) exceeds the gap {d * 1e3:.6g} mm; valid: 0 mm "
+                f"to {d * 1e3:.6g} mm together",
                 value=spec.thickness,
                 valid=(0.0, d),
             )
@@ -360,8 +365,9 @@ def parallel_strips(
     if spec is not None:
         if spec.thickness + spec.lift > d * (1 + 1e-12):
             raise GeometryError(
-                f"specimen thickness {spec.thickness * 1e3:.6g} mm exceeds the gap "
-                f"{d * 1e3:.6g} mm",
+                f"specimen thickness {spec.thickness * 1e3:.6g} mm (+ lift "
+                f"{spec.lift * 1e3:.6g} mm) exceeds the gap {d * 1e3:.6g} mm; valid: 0 mm "
+                f"to {d * 1e3:.6g} mm together",
                 value=spec.thickness,
                 valid=(0.0, d),
             )

@@ -32,13 +32,13 @@ import json
 import math
 import os
 import sqlite3
-from collections.abc import Callable, Iterator, Sequence
+from collections.abc import Callable, Iterator, Mapping, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from .errors import StoreError
+from .errors import InputError, StoreError
 
 #: the schema version this capbench writes
 SCHEMA_VERSION = 2
@@ -329,6 +329,7 @@ class BenchLog:
         """
         if kind not in KINDS:
             raise StoreError(f"entry kind = {kind!r}; valid: {list(KINDS)}", value=kind)
+        _check_results(results)
         from . import __version__
 
         who = operator if operator else _login()
@@ -568,6 +569,36 @@ class BenchLog:
         if path is not None:
             _atomic_write(Path(path), text)
         return text
+
+
+# result keys the log's schema requires in every row (NOT NULL columns)
+_REQUIRED_RESULT_KEYS = ("eps_r", "u_eps_r", "U_eps_r", "k_eps_r")
+
+
+def _check_results(results: Sequence[dict]) -> None:
+    """Refuse a result row the schema cannot hold, before the transaction starts (it
+    surfaced as sqlite3.IntegrityError from inside the insert)."""
+    for i, row in enumerate(results):
+        if not isinstance(row, Mapping):
+            raise InputError(
+                f"result row {i} = {row!r} must be a dict with keys {list(_RESULT_KEYS)}",
+                value=repr(row),
+            )
+        for key in _REQUIRED_RESULT_KEYS:
+            value = row.get(key)
+            if isinstance(value, bool) or not isinstance(value, (int, float)):
+                raise InputError(
+                    f"result row {i}: {key} = {value!r}; valid: a finite number "
+                    f"(required keys: {list(_REQUIRED_RESULT_KEYS)})",
+                    name=key,
+                    value=repr(value),
+                )
+            if not math.isfinite(value):
+                raise InputError(
+                    f"result row {i}: {key} = {value!r}; valid: a finite number",
+                    name=key,
+                    value=repr(value),
+                )
 
 
 def _finite(x: Any) -> Any:

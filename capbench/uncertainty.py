@@ -42,7 +42,7 @@ import math
 import re
 import warnings
 from collections.abc import Callable, Iterable, Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
 import numpy as np
@@ -389,8 +389,11 @@ def type_b(
     return _wrap(InputVariable(float(q.magnitude), std, src), unit)
 
 
+# "0.05 % of reading"; the number written so that no two parts match the same digits
+# (the former "\d*\.?\d+" backtracked quadratically on a long run of digits)
 _SPEC = re.compile(
-    r"^\s*(?P<pct>[-+]?\d*\.?\d+(?:[eE][-+]?\d+)?)\s*%\s*(?:of\s+(?:the\s+)?reading)?\s*$"
+    r"^\s*(?P<pct>[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)\s*%"
+    r"\s*(?:of\s+(?:the\s+)?reading)?\s*$"
 )
 
 
@@ -425,9 +428,11 @@ class AccuracySpec:
     @classmethod
     def parse(cls, text: str, distribution: str = "rectangular") -> AccuracySpec:
         """Read "0.05 % of reading + 0.002 pF" (terms in any order; either may be absent)."""
-        if not isinstance(text, str) or not text.strip():
+        if not isinstance(text, str) or not text.strip() or len(text) > 200:
+            shown = repr(text) if not isinstance(text, str) else repr(text[:80])
             raise InputError(
-                f"accuracy = {text!r}; write it as e.g. '0.05 % of reading + 0.002 pF'",
+                f"accuracy = {shown}; write it as e.g. '0.05 % of reading + 0.002 pF' "
+                "(at most 200 characters)",
                 value=text,
             )
         pct = 0.0
@@ -570,8 +575,17 @@ def si_value(value: Any, kind: str, name: str, *, limits: str | None = None) -> 
         check(nominal, limits, name, positive=LIMITS[limits][0] > 0)
     elif not math.isfinite(nominal):
         raise InputError(f"{name} = {value!r} is not finite", name=name)
-    if isinstance(x, AffineScalarFunc) and not math.isfinite(x.s):
-        raise InputError(f"{name} = {value!r} has a non-finite uncertainty", name=name)
+    if isinstance(x, AffineScalarFunc):
+        try:
+            s = x.s  # sqrt of a sum of squares: overflows for a deviation near 1e154
+        except OverflowError:
+            s = math.inf
+        if not math.isfinite(s):
+            raise InputError(
+                f"{name} = {value!r} has a non-finite uncertainty; valid: a finite standard "
+                "uncertainty >= 0",
+                name=name,
+            )
     return x
 
 
@@ -716,6 +730,22 @@ def budget(y: Any, name: str = "y", unit: str | None = None) -> Budget:
     unit = unit or ""
     if not isinstance(y, AffineScalarFunc):
         y = exact(float(y))
+    scale = _power_of_two_scale(y)
+    if scale != 1.0:
+        # contributions near 1e-160 square to below the smallest normal float (the
+        # shares no longer summed to 1) and near 1e-100 their 4th powers vanish (the
+        # degrees of freedom became infinite); the budget of y * 2^k, scaled back, is exact
+        b = budget(y * scale, name, unit)
+        return replace(
+            b,
+            value=float(y.n),
+            u=b.u / scale,
+            rows=tuple(
+                replace(r, sensitivity=r.sensitivity / scale, contribution=r.contribution / scale)
+                for r in b.rows
+            ),
+            correlation=b.correlation / scale / scale,
+        )
     derivs = y.derivatives
     rows: list[tuple[Source, float, float, float]] = []  # source, value, u, c
     groups: dict[int, tuple[CorrelatedGroup, np.ndarray]] = {}
@@ -726,11 +756,11 @@ def budget(y: Any, name: str = "y", unit: str | None = None) -> Budget:
             entry = groups.setdefault(id(g), (g, np.zeros(len(g.sources))))
             entry[1][var.index] += d
         elif isinstance(var, InputVariable):
-            rows.append((var.source, var.n, var.s, float(d)))
+            rows.append((var.source, var.n, var.std_dev, float(d)))
         else:
             unnamed += 1
             label = var.tag if var.tag else f"unnamed input {unnamed}"
-            rows.append((Source(str(label), "", "normal", "B"), var.n, var.s, float(d)))
+            rows.append((Source(str(label), "", "normal", "B"), var.n, var.std_dev, float(d)))
     correlation = 0.0
     ws_den = 0.0
     for g, gz in groups.values():
@@ -771,6 +801,17 @@ def budget(y: Any, name: str = "y", unit: str | None = None) -> Budget:
     dof = uc**4 / ws_den if ws_den > 0 else math.inf
     corr_share = correlation / uc2_pkg if uc2_pkg > 0 else 0.0
     return Budget(name, unit, float(y.n), uc, tuple(out), correlation, corr_share, dof)
+
+
+def _power_of_two_scale(y: AffineScalarFunc) -> float:
+    """1, or a power of two that brings the largest contribution |c u| of ``y`` near 1
+    when it lies outside 1e-50 to 1e50 (Welch-Satterthwaite raises it to the 4th power,
+    which leaves the float range below 1e-77 or above 1e77)."""
+    biggest = max((abs(d * var.std_dev) for var, d in y.derivatives.items()), default=0.0)
+    if biggest == 0 or not math.isfinite(biggest) or 1e-50 <= biggest <= 1e50:
+        return 1.0
+    # at most 2^1000 at a time (2^1023 is the largest float); budget() repeats if needed
+    return math.ldexp(1.0, max(-1000, min(1000, -math.frexp(biggest)[1])))
 
 
 def exact(x: float) -> AffineScalarFunc:

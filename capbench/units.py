@@ -21,7 +21,17 @@ ureg.formatter.default_format = "~P"
 pint.set_application_registry(ureg)  # quantities pickle into worker processes
 Q_ = ureg.Quantity
 
-_NUMBER_UNIT = re.compile(r"^([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*)$")
+#: a decimal number; written so that no two parts can match the same digits (the form
+#: "\d+\.?\d*" backtracks quadratically on a long run of digits that fails to match)
+NUMBER_PATTERN = r"[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?"
+_NUMBER_UNIT = re.compile(rf"^({NUMBER_PATTERN})\s*(.*)$", re.DOTALL)
+# what a unit may be made of before pint sees it: names, "*", "/", brackets, small
+# exponents and a "1" over something ("1/s"). pint evaluates number arithmetic in unit
+# text, and "9**9**9 m" kept it computing a number of 370 million digits (a hang)
+_UNIT_TOKEN = re.compile(
+    r"\s*(?:[^\W\d]\w*|%|\u00b0\w*|(?:\*\*|\^)\s*[-+]?\d{1,2}(?:\.\d{1,3})?|[*/()]|1(?=\s*/))"
+)
+MAX_UNIT_CHARS = 64
 
 #: Vacuum permittivity, F/m (CODATA 2022).
 EPS0 = 8.8541878188e-12
@@ -37,7 +47,36 @@ _BASE_UNIT = {
     "temperature": "degC",
     "pressure": "Pa",
     "dimensionless": "",
+    "area": "m**2",
+    "time": "s",
 }
+
+
+# an example of each kind, for messages
+_EXAMPLE = {
+    "length": "25 mm",
+    "capacitance": "4.7 pF",
+    "frequency": "1 kHz",
+    "temperature": "23 degC",
+    "conductance": "1 nS",
+    "voltage": "100 V",
+    "pressure": "101.325 kPa",
+    "area": "500 mm**2",
+    "time": "60 s",
+}
+
+
+def _plain_unit(unit: str) -> bool:
+    """Whether ``unit`` is made only of :data:`_UNIT_TOKEN` pieces (no number arithmetic)."""
+    if len(unit) > MAX_UNIT_CHARS:
+        return False
+    pos = 0
+    while pos < len(unit):
+        m = _UNIT_TOKEN.match(unit, pos)
+        if m is None or m.end() == pos:
+            return unit[pos:].strip() == ""
+        pos = m.end()
+    return True
 
 
 def base_unit(kind: str) -> str:
@@ -62,6 +101,11 @@ def parse_quantity(value: Any, name: str = "value") -> pint.Quantity:
             if match is None:
                 raise ValueError("no leading number")
             number, unit = match.group(1), match.group(2).strip()
+            if not _plain_unit(unit):
+                raise ValueError(
+                    f"{unit[:MAX_UNIT_CHARS]!r} is not a unit capbench reads (names joined by "
+                    f"* and /, small whole exponents, at most {MAX_UNIT_CHARS} characters)"
+                )
             q = Q_(float(number), unit or "")
         except Exception as exc:  # pint raises several unrelated types here
             raise InputError(
@@ -71,7 +115,14 @@ def parse_quantity(value: Any, name: str = "value") -> pint.Quantity:
             ) from None
         return q
     if isinstance(value, Real) and not isinstance(value, bool):
-        return Q_(float(value), "")
+        try:
+            return Q_(float(value), "")
+        except OverflowError:  # an integer beyond the float range
+            raise InputError(
+                f"{name} = {value!r} is too large to be a number (at most about 1.8e308)",
+                name=name,
+                value=value,
+            ) from None
     raise InputError(
         f"{name} = {value!r} has type {type(value).__name__}; give a number, "
         "a string such as '25 mm', or a pint Quantity",
@@ -84,27 +135,38 @@ def to_si(value: Any, kind: str, name: str = "value") -> float:
     """Convert ``value`` to a float in capbench's internal unit for ``kind``.
 
     ``kind`` is one of "length", "capacitance", "capacitance per length", "frequency",
-    "conductance", "voltage", "temperature" (degC), "pressure", "dimensionless". A plain
+    "conductance", "voltage", "temperature" (degC), "pressure", "dimensionless", "area",
+    "time". A plain
     number (or a string holding only a number) is taken in that unit. Raises
     :class:`InputError` naming the value and the expected unit when the dimension is
     wrong or the number is not finite.
     """
     unit = _BASE_UNIT[kind]
     q = parse_quantity(value, name)
-    if q.dimensionless and not isinstance(value, pint.Quantity):
-        number = float(q.magnitude)
-    else:
-        try:
+    # only a bare number is taken in the base unit; "5 %" or "2 mm/m" are dimensionless
+    # but carry a unit, and must convert (0.05), never pass as 5 m or 5 F
+    try:
+        if q.units == ureg.dimensionless and not isinstance(value, pint.Quantity):
+            number = float(q.magnitude)
+        else:
             number = float(q.to(unit).magnitude)
-        except pint.DimensionalityError:
-            shown = unit or "a plain number"
-            raise InputError(
-                f"{name} = {value!r} is not a {kind}; give it in {shown} or another "
-                f"{kind} unit (got {q.units:~P})",
-                name=name,
-                value=value,
-                expected_unit=unit,
-            ) from None
+    except pint.DimensionalityError:
+        shown = unit or "a plain number"
+        raise InputError(
+            f"{name} = {value!r} is not a {kind}; give it in {shown} or another "
+            f"{kind} unit (got {q.units:~P})",
+            name=name,
+            value=value,
+            expected_unit=unit,
+        ) from None
+    except (TypeError, ValueError, OverflowError):
+        # a quantity holding an array, a complex number or an uncertain value
+        raise InputError(
+            f"{name} = {value!r} is not a single real number with a unit; give one value, "
+            f"e.g. {_EXAMPLE.get(kind, '1')!r}",
+            name=name,
+            value=value,
+        ) from None
     if not math.isfinite(number):
         raise InputError(f"{name} = {value!r} is not a finite number", name=name, value=value)
     return number
