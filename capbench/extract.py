@@ -1261,6 +1261,58 @@ def _point(
     )
 
 
+def _points(
+    freqs: list[float | None], ideal: list, func: Any, lossy: bool, label: str
+) -> list[Point]:
+    """The closed form's result at each reading (``ideal`` holds its arguments and value)."""
+    return [_ideal_point(freqs[i], entry, func, lossy, label) for i, entry in enumerate(ideal)]
+
+
+def _ideal_point(
+    freq: float | None,
+    entry: tuple[dict, tuple[Any, Any, Any]],
+    func: Any,
+    lossy: bool,
+    label: str,
+    eps_u: _Cx | None = None,
+    solved: _Solved | None = None,
+) -> Point:
+    """One reading's Point: the FEM-corrected ``eps_u`` where given, else the closed form's."""
+    args, (_z0, z_re, z_tan) = entry
+    if eps_u is None:
+        eps_u = _Cx(z_re, -z_tan * z_re if lossy else 0.0)
+    return _point(freq, eps_u, z_re, z_tan, lossy, label, _Model(func, tuple(args.items())), solved)
+
+
+def _roots(
+    solver: _Fem,
+    fx: Fixture,
+    targets: list[complex],
+    start: complex,
+    medium: complex,
+    role: str,
+    label: str,
+) -> list[tuple[complex, _Solved]]:
+    """The permittivity that reproduces each target capacitance, each root starting from the
+    previous one stepped along its slope (readings at nearby frequencies differ little)."""
+    roots: list[tuple[complex, _Solved]] = []
+    for i, target in enumerate(targets):
+        if roots:
+            prev_eps, prev = roots[-1]
+            start = prev_eps + (target - targets[i - 1]) / prev.S
+        roots.append(_newton(solver, fx, target, start, medium, role))
+        _gain_warning(roots[-1][0], label)
+    return roots
+
+
+def _linear_root(eps_k: complex, s_k: _Solved, reading_shift: Any, delta: Any, dims: Any) -> _Cx:
+    """The root carried to first order through the reading's uncertainty (``reading_shift``:
+    the uncertain target minus its nominal), the FEM's own error ``delta`` (relative) and the
+    dimensions' (``dims``: capacitance change), over the slope dC/d(eps)."""
+    num = reading_shift - _Cx.of(s_k.C) * delta - dims
+    return _Cx.of(eps_k) + num / _Cx.of(s_k.S)
+
+
 def _nominal_dims(dims: Mapping[str, Any]) -> dict[str, float]:
     return {k: _n(v) for k, v in dims.items()}
 
@@ -1445,18 +1497,7 @@ def contacting(
     cv = _contacting_formula(1.0, _n(t), area({k: _n(v) for k, v in {**geom_args, "t": t}.items()}))
     extras = (("vacuum_capacitance_ideal", Q_(1.0 / cv * 1e12, "pF")),)
     if not fem:
-        points = [
-            _point(
-                freqs[i],
-                _Cx(z_re, -z_tan * z_re if lossy else 0.0),
-                z_re,
-                z_tan,
-                lossy,
-                "contacting",
-                _Model(func, tuple(args.items())),
-            )
-            for i, (args, (_z0, z_re, z_tan)) in enumerate(ideal)
-        ]
+        points = _points(freqs, ideal, func, lossy, "contacting")
         return _finish("contacting", fx0, points, None, t_start, extras)
 
     solver = _Fem(rtol)
@@ -1464,35 +1505,15 @@ def contacting(
     targets = [
         ((_n(c) - _n(cs)) * complex(1.0, -(_n(d[i]) if lossy else 0.0))) for i, c in enumerate(caps)
     ]
-    roots: list[tuple[complex, _Solved]] = []
-    start = ideal[0][1][0]
-    for i, target in enumerate(targets):
-        if roots:
-            prev_eps, prev = roots[-1]
-            start = prev_eps + (target - targets[i - 1]) / prev.S
-        roots.append(_newton(solver, fx0, target, start, medium, role))
-        _gain_warning(roots[-1][0], "contacting")
+    roots = _roots(solver, fx0, targets, ideal[0][1][0], medium, role, "contacting")
     eps_ref = complex(float(np.mean([e.real for e, _ in roots])), 0.0)
     fd = [_fd_sum(solver, fixture, dims, e, eps_ref, medium, role, tie=True) for e, _ in roots]
     delta = solver.error_input(role)
     points = []
     for i, (eps_k, s_k) in enumerate(roots):
         t_u = _complex_reading(caps[i] - cs, d[i] if lossy else None)
-        num = (t_u - targets[i]) - _Cx.of(s_k.C) * delta - fd[i]
-        eps_u = _Cx.of(eps_k) + num / _Cx.of(s_k.S)
-        args, (_z0, z_re, z_tan) = ideal[i]
-        points.append(
-            _point(
-                freqs[i],
-                eps_u,
-                z_re,
-                z_tan,
-                lossy,
-                "contacting",
-                _Model(func, tuple(args.items())),
-                s_k,
-            )
-        )
+        eps_u = _linear_root(eps_k, s_k, t_u - targets[i], delta, fd[i])
+        points.append(_ideal_point(freqs[i], ideal[i], func, lossy, "contacting", eps_u, s_k))
     return _finish("contacting", fx0, points, solver, t_start, extras)
 
 
@@ -1588,18 +1609,7 @@ def air_gap(
         ideal.append((args, _linearised(func, args)))
     fx0 = _build(fixture, nominal)
     if not fem:
-        points = [
-            _point(
-                freqs[i],
-                _Cx(z_re, -z_tan * z_re if lossy else 0.0),
-                z_re,
-                z_tan,
-                lossy,
-                "air gap",
-                _Model(func, tuple(args.items())),
-            )
-            for i, (args, (_z0, z_re, z_tan)) in enumerate(ideal)
-        ]
+        points = _points(freqs, ideal, func, lossy, "air gap")
         return _finish("air gap", fx0, points, None, t_start)
 
     solver = _Fem(rtol)
@@ -1612,14 +1622,7 @@ def air_gap(
         c0star = _complex_reading(empties[i] - cs, d0[i] if d0 is not None else None)
         ratios.append(cstar / c0star)
         targets.append(se.C * ratios[-1].nominal)
-    roots: list[tuple[complex, _Solved]] = []
-    start = ideal[0][1][0]
-    for i, target in enumerate(targets):
-        if roots:
-            prev_eps, prev = roots[-1]
-            start = prev_eps + (target - targets[i - 1]) / prev.S
-        roots.append(_newton(solver, fx0, target, start, medium, role))
-        _gain_warning(roots[-1][0], "air gap")
+    roots = _roots(solver, fx0, targets, ideal[0][1][0], medium, role, "air gap")
     eps_ref = complex(float(np.mean([e.real for e, _ in roots])), 0.0)
     # the empty cell does not depend on the specimen's thickness
     empty_fd = _fd_sum(solver, fixture, dims, medium, medium, medium, erole, skip=("thickness",))
@@ -1630,21 +1633,8 @@ def air_gap(
     points = []
     for i, (eps_k, s_k) in enumerate(roots):
         t_u = ce_u * ratios[i]
-        num = (t_u - targets[i]) - _Cx.of(s_k.C) * delta - fd[i]
-        eps_u = _Cx.of(eps_k) + num / _Cx.of(s_k.S)
-        args, (_z0, z_re, z_tan) = ideal[i]
-        points.append(
-            _point(
-                freqs[i],
-                eps_u,
-                z_re,
-                z_tan,
-                lossy,
-                "air gap",
-                _Model(func, tuple(args.items())),
-                s_k,
-            )
-        )
+        eps_u = _linear_root(eps_k, s_k, t_u - targets[i], delta, fd[i])
+        points.append(_ideal_point(freqs[i], ideal[i], func, lossy, "air gap", eps_u, s_k))
     extras = (("empty_capacitance_fem", Q_(se.C.real * 1e12, "pF")),)
     return _finish("air gap", fx0, points, solver, t_start, extras)
 
@@ -1760,18 +1750,7 @@ def micrometer(
     base_dims = {"thickness": t, "spacing": s1_list[0], **extra_dims}
     fx_show = _build(fixture, _nominal_dims(base_dims))
     if not fem:
-        points = [
-            _point(
-                freqs[i],
-                _Cx(z_re, -z_tan * z_re if lossy else 0.0),
-                z_re,
-                z_tan,
-                lossy,
-                "micrometer",
-                _Model(func, tuple(args.items())),
-            )
-            for i, (args, (_z0, z_re, z_tan)) in enumerate(ideal)
-        ]
+        points = _points(freqs, ideal, func, lossy, "micrometer")
         return _finish("micrometer re-set", fx_show, points, None, t_start)
 
     solver = _Fem(rtol)
@@ -1810,21 +1789,8 @@ def micrometer(
     for i, (eps_k, s_k) in enumerate(roots):
         se, efd, lfd, dstar, target = terms[i]
         t_u = _Cx.of(se.C) * (1 + delta_e) + efd + dstar
-        num = (t_u - target) - _Cx.of(s_k.C) * delta - lfd
-        eps_u = _Cx.of(eps_k) + num / _Cx.of(s_k.S)
-        args, (_z0, z_re, z_tan) = ideal[i]
-        points.append(
-            _point(
-                freqs[i],
-                eps_u,
-                z_re,
-                z_tan,
-                lossy,
-                "micrometer",
-                _Model(func, tuple(args.items())),
-                s_k,
-            )
-        )
+        eps_u = _linear_root(eps_k, s_k, t_u - target, delta, lfd)
+        points.append(_ideal_point(freqs[i], ideal[i], func, lossy, "micrometer", eps_u, s_k))
     return _finish("micrometer re-set", fx_show, points, solver, t_start)
 
 
@@ -1920,18 +1886,7 @@ def two_fluid(
     extra_dims = _dimensions(dimensions, fixture)
     spacing = geo["spacing"]
     if not fem:
-        points = [
-            _point(
-                freqs[i],
-                _Cx(z_re, -z_tan * z_re if lossy else 0.0),
-                z_re,
-                z_tan,
-                lossy,
-                "two fluid",
-                _Model(_two_fluid_model, tuple(args.items())),
-            )
-            for i, (args, (_z0, z_re, z_tan)) in enumerate(ideal)
-        ]
+        points = _points(freqs, ideal, _two_fluid_model, lossy, "two fluid")
         fractions = tuple(
             _two_fluid_formula(c1[i], r1[i], c2[i], r2[i], e1, e2)[1] for i in range(n)
         )
@@ -1972,18 +1927,8 @@ def two_fluid(
             _two_fluid_nominal(c1[i], r1[i], c2[i], r2[i], e1, e2)[1],
         )
         eps_u, t_u, cp_u, fx_last, s_last = res
-        args, (_z0, z_re, z_tan) = ideal[i]
         points.append(
-            _point(
-                freqs[i],
-                eps_u,
-                z_re,
-                z_tan,
-                lossy,
-                "two fluid",
-                _Model(_two_fluid_model, tuple(args.items())),
-                s_last,
-            )
+            _ideal_point(freqs[i], ideal[i], _two_fluid_model, lossy, "two fluid", eps_u, s_last)
         )
         thicknesses.append(Q_(t_u * 1e3, "mm"))
         strays.append(Q_(cp_u * 1e12, "pF"))
@@ -2189,18 +2134,7 @@ def liquid(
     dims = _dimensions(dimensions, cell)
     fx0 = _build(cell, _nominal_dims(dims))
     if not fem:
-        points = [
-            _point(
-                freqs[i],
-                _Cx(z_re, -z_tan * z_re if lossy else 0.0),
-                z_re,
-                z_tan,
-                lossy,
-                "liquid",
-                _Model(func, tuple(args.items())),
-            )
-            for i, (args, (_z0, z_re, z_tan)) in enumerate(ideal)
-        ]
+        points = _points(freqs, ideal, func, lossy, "liquid")
         return _finish("liquid cell", fx0, points, None, t_start)
 
     solver = _Fem(rtol)
@@ -2214,14 +2148,7 @@ def liquid(
         cp = _n(empties[i]) - se.C.real
         strays.append(cp)
         targets.append(_complex_reading(_n(fills[i]), _n(d[i]) if lossy else None).nominal - cp)
-    roots: list[tuple[complex, _Solved]] = []
-    start = ideal[0][1][0]
-    for i, target in enumerate(targets):
-        if roots:
-            prev_eps, prev = roots[-1]
-            start = prev_eps + (target - targets[i - 1]) / prev.S
-        roots.append(_newton(solver, fx0, target, start, medium, role))
-        _gain_warning(roots[-1][0], "liquid")
+    roots = _roots(solver, fx0, targets, ideal[0][1][0], medium, role, "liquid")
     eps_ref = complex(float(np.mean([e.real for e, _ in roots])), 0.0)
     fd = [_fd_sum(solver, cell, dims, e, eps_ref, medium, role) for e, _ in roots]
     delta = solver.error_input(role)
@@ -2233,21 +2160,8 @@ def liquid(
         cp_u = empties[i] - ce_fem_u
         stray_u.append(Q_(cp_u * 1e12, "pF"))
         t_u = _complex_reading(fills[i], d[i] if lossy else None) - cp_u
-        num = (t_u - targets[i]) - _Cx.of(s_k.C) * delta - fd[i]
-        eps_u = _Cx.of(eps_k) + num / _Cx.of(s_k.S)
-        args, (_z0, z_re, z_tan) = ideal[i]
-        points.append(
-            _point(
-                freqs[i],
-                eps_u,
-                z_re,
-                z_tan,
-                lossy,
-                "liquid",
-                _Model(func, tuple(args.items())),
-                s_k,
-            )
-        )
+        eps_u = _linear_root(eps_k, s_k, t_u - targets[i], delta, fd[i])
+        points.append(_ideal_point(freqs[i], ideal[i], func, lossy, "liquid", eps_u, s_k))
         if strays[i] < -1e-3 * _n(empties[i]):
             warnings.warn(
                 f"liquid: the empty reading ({_n(empties[i]) * 1e12:.6g} pF) is below the "
