@@ -263,7 +263,8 @@ def potential_map(
     ax.set_xlim(wx0 * MM, wx1 * MM)
     ax.set_ylim(wy0 * MM, wy1 * MM)
     ax.set_aspect("equal")
-    ax.set_title(f"{fx.name or 'fixture'}: potential and field lines", fontsize=10)
+    shown = "potential and field lines" if field_lines > 0 else "potential"
+    ax.set_title(f"{fx.name or 'fixture'}: {shown}", fontsize=10)
     return fig
 
 

@@ -177,8 +177,8 @@ class Report:
             rows = [
                 [
                     r["input"][:34],
-                    f"{r['value']:.7g}",
-                    f"{r['u']:.3g}",
+                    _unit(f"{r['value']:.7g}", r),
+                    _unit(f"{r['u']:.3g}", r),
                     r["distribution"],
                     r["type"],
                     r["dof"],
@@ -257,8 +257,8 @@ class Report:
                 rows = [
                     [
                         r["input"],
-                        f"{r['value']:.7g}",
-                        f"{r['u']:.3g}",
+                        _unit(f"{r['value']:.7g}", r),
+                        _unit(f"{r['u']:.3g}", r),
                         r["distribution"],
                         r["type"],
                         r["dof"],
@@ -480,6 +480,11 @@ def _html_kv(data: Mapping[str, Any]) -> str:
     e = html.escape
     rows = "".join(f"<tr><th>{e(str(k))}</th><td>{e(str(v))}</td></tr>" for k, v in data.items())
     return f'<table class="kv">{rows}</table>'
+
+
+def _unit(text: str, row: dict) -> str:
+    """A budget cell with its input's unit (none for a dimensionless input)."""
+    return f"{text} {row['unit']}" if row.get("unit") else text
 
 
 def _html_table(header: list[str], rows: list[list[Any]], cls: str) -> str:

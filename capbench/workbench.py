@@ -85,14 +85,18 @@ def frequency_text(hz: float) -> str:
     return f"{compact(hz)} Hz"
 
 
-def with_uncertainty(x: float, u: float, digits_u: int = 2) -> str:
+def with_uncertainty(x: float, u: float, digits_u: int = 2, power: int | None = None) -> str:
     """ "x ± u" with u rounded to ``digits_u`` significant digits and x to the same
-    decimal place (GUM 7.2.6: an uncertainty needs at most two significant digits)."""
+    decimal place (GUM 7.2.6: an uncertainty needs at most two significant digits).
+    ``power`` writes the pair as "(x' ± u')eN" with that N (one N for a whole column)."""
     if not (math.isfinite(x) and math.isfinite(u)):
         return "-"
     if u <= 0:
         return f"{sig(x, 7)} (exact)"
-    if 0 < abs(x) < 1e-3 and u < abs(x) * 10:
+    if power is not None and power != 0:
+        inner = with_uncertainty(x / 10.0**power, u / 10.0**power, digits_u)
+        return f"({inner})e{power}"
+    if power is None and 0 < abs(x) < 1e-3 and u < abs(x) * 10:
         # small values (a loss tangent) share one power of ten: (2.58 ± 0.26)e-4
         power = math.floor(math.log10(abs(x)))
         inner = with_uncertainty(x / 10.0**power, u / 10.0**power, digits_u)
@@ -1204,11 +1208,11 @@ def budget_rows(b: Any) -> list[dict[str, str]]:
             {
                 "input": r.name,
                 "value": compact(r.value, 7) + (f" {r.unit}" if r.unit else ""),
-                "u(x)": sig(r.u, 3),
+                "u(x)": sig(r.u, 3) + (f" {r.unit}" if r.unit else ""),
                 "distribution": r.distribution,
                 "type": r.kind,
                 "dof": "∞" if math.isinf(r.dof) else f"{r.dof:.0f}",
-                "sensitivity c": sig(r.sensitivity, 3),
+                "sensitivity c": sig(r.sensitivity, 3) + (f" per {r.unit}" if r.unit else ""),
                 "c·u(x)": sig(r.contribution, 3),
                 "share": f"{100 * r.share:.2f} %",
             }
@@ -1218,10 +1222,21 @@ def budget_rows(b: Any) -> list[dict[str, str]]:
     return rows
 
 
+def _column_power(values: Sequence[float]) -> int:
+    """One power of ten for a column of small values (eps'', tan delta), so that every row
+    reads in the same form; 0 (plain decimals) where the largest is 0.01 or more."""
+    finite = [abs(v) for v in values if math.isfinite(v) and v != 0]
+    if not finite or max(finite) >= 1e-2:
+        return 0
+    return math.floor(math.log10(max(finite)))
+
+
 def point_rows(extraction: Any, k: float = 2.0) -> list[dict[str, str]]:
     """One row of text per frequency: eps' ± U, the closed form, the correction, eps''
     and tan delta ± U (coverage factor ``k``)."""
     rows = []
+    loss_power = _column_power([p.eps_loss.n for p in extraction.points if p.tan_delta is not None])
+    tan_power = _column_power([p.tan_delta.n for p in extraction.points if p.tan_delta is not None])
     for p in extraction.points:
         row = {
             "frequency": "-" if p.frequency is None else frequency_text(p.frequency),
@@ -1230,8 +1245,8 @@ def point_rows(extraction: Any, k: float = 2.0) -> list[dict[str, str]]:
             "field correction": f"{100 * p.correction:+.3f} %",
         }
         if p.tan_delta is not None:
-            row["eps''"] = with_uncertainty(p.eps_loss.n, k * p.eps_loss.s)
-            row["tan δ"] = with_uncertainty(p.tan_delta.n, k * p.tan_delta.s)
+            row["eps''"] = with_uncertainty(p.eps_loss.n, k * p.eps_loss.s, power=loss_power)
+            row["tan δ"] = with_uncertainty(p.tan_delta.n, k * p.tan_delta.s, power=tan_power)
         rows.append(row)
     return rows
 

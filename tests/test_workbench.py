@@ -70,6 +70,11 @@ def test_uncertainty_statement_rounding_follows_the_gum_example():
     assert wb.with_uncertainty(5.0, 0.0) == "5.000000 (exact)"
     assert wb.with_uncertainty(0.0002584, 2.7e-5) == "(2.58 ± 0.27)e-4"  # a loss tangent
     assert wb.frequency_text(1e3) == "1 kHz" and wb.frequency_text(2.5e6) == "2.5 MHz"
+    # a column of small values shares one power of ten (common practice in tables)
+    assert wb.with_uncertainty(0.00114, 6.1e-5, power=-4) == "(11.40 ± 0.61)e-4"
+    assert wb.with_uncertainty(0.00114, 6.1e-5, power=0) == "0.001140 ± 0.000061"
+    assert wb._column_power([2.6e-4, 1.14e-3, 0.0]) == -3
+    assert wb._column_power([2.6e-4, 0.05]) == 0
     assert wb.capacitance_text(20.70721e-12) == "20.70721 pF"
 
 
