@@ -1341,6 +1341,53 @@ def _fd_sum(
     return total
 
 
+def _touching(dims: Mapping[str, Any]) -> bool:
+    """Whether the electrodes rest on the specimen (spacing = thickness, as _build
+    takes them)."""
+    t, s = _n(dims["thickness"]), _n(dims["spacing"])
+    return abs(s - t) <= 1e-9 * s
+
+
+def _touching_fd(
+    fem: _Fem,
+    base: Fixture,
+    dims: Mapping[str, Any],
+    eps_k: complex,
+    eps_ref: complex,
+    medium: complex,
+    role: str,
+) -> Any:
+    """:func:`_fd_sum` for electrodes resting on the specimen (spacing s = thickness t).
+
+    The thickness cannot be varied alone there (thicker does not fit; thinner opens an
+    air film of the difference step, far below what a mesh of the fixture resolves), so
+    the field is varied along the one length they share, L = s = t, and that derivative
+    is split between the two readings as the series model of the uniform-field region
+    splits it: C = eps0 A eps / (t + eps (s - t)) gives, at s = t,
+    dC/dt = (1 - eps) dC/dL and dC/ds = eps dC/dL (they sum to dC/dL; the fringing
+    field enters through dC/dL, its small share of the split does not).
+    """
+    nominal = _nominal_dims(dims)
+    total: Any = _Cx(0.0)
+    if _s(dims["thickness"]) or _s(dims["spacing"]):
+        dC, dS, _dSm = fem.gradient(base, nominal, "thickness", eps_ref, medium, role, True)
+        g = dC + (eps_k - eps_ref) * dS
+        for name, share in (("thickness", 1 - eps_k), ("spacing", eps_k)):
+            if _s(dims[name]):
+                total = total + _Cx.of(g * share) * (dims[name] - nominal[name])
+    rest = {k: v for k, v in dims.items() if k not in ("thickness", "spacing")}
+    return total + _fd_sum(
+        fem,
+        base,
+        {**rest, "thickness": nominal["thickness"]},
+        eps_k,
+        eps_ref,
+        medium,
+        role,
+        tie=True,
+    )
+
+
 def _medium_of(fixture: Fixture) -> complex:
     return complex(fixture.geometry.medium_eps_r)
 
@@ -1781,7 +1828,10 @@ def micrometer(
     for i in range(n):
         _fx_e, se, ldims, edims, dstar, target = empties[i]
         efd = _fd_sum(solver, fixture, edims, medium, medium, medium, erole, tie=True)
-        lfd = _fd_sum(solver, fixture, ldims, roots[i][0], eps_ref, medium, role)
+        if _touching(ldims):
+            lfd = _touching_fd(solver, fixture, ldims, roots[i][0], eps_ref, medium, role)
+        else:
+            lfd = _fd_sum(solver, fixture, ldims, roots[i][0], eps_ref, medium, role)
         terms.append((se, efd, lfd, dstar, target))
     delta = solver.error_input(role)
     delta_e = solver.error_input(erole)

@@ -240,6 +240,42 @@ def test_micrometer_discs_with_residual_difference():
     assert abs(p.correction) < 0.05
 
 
+def test_micrometer_touching_electrodes_with_uncertain_thickness_and_spacing():
+    # s1 = t read on two micrometers: the thickness cannot be varied alone (a thinner
+    # specimen opens an air film no mesh resolves), so the method varies L = s1 = t and
+    # splits dC/dL by the series model (extract._touching_fd)
+    eps, t, s2 = 2.3, 2e-3, 0.88e-3
+    loaded = cb.parallel_discs(radius="20 mm", gap=t, specimen=cb.Specimen(t, eps))
+    c1 = cb.solve(loaded, rtol=1e-7).terminal.real
+    c2 = cb.solve(cb.parallel_discs(radius="20 mm", gap=s2), rtol=1e-7).terminal.real
+
+    def run(length_mm, fem=True):
+        return X.micrometer(
+            loaded,
+            thickness=U.type_b(f"{length_mm} mm", u="1 um", name="thickness"),
+            loaded_spacing=U.type_b(f"{length_mm} mm", u="2 um", name="loaded spacing"),
+            empty_spacing=s2,
+            capacitance=c1,
+            empty_capacitance=c2,
+            fem=fem,
+            rtol=RTOL,
+        )[0]
+
+    p = run(2.0)
+    assert p.eps_r.n == pytest.approx(eps, rel=TOL)
+    sens = {r.name: r.sensitivity for r in p.budget.rows}  # per mm
+    # the sum of the two is the FEM's own dC/dL: against a central difference of the
+    # whole extraction at L +- 10 um (its error ~ the solves' 1e-6 over the 1 % step)
+    step = 0.01
+    slope = (run(2.0 + step).eps_r.n - run(2.0 - step).eps_r.n) / (2 * step)
+    assert sens["thickness"] + sens["loaded spacing"] == pytest.approx(slope, rel=1e-3)
+    # each against the closed form's, eps = t / (t - s1 + s2 C2/C1): equal but for the
+    # fringing field, which changes dC/dL by a few per cent in this d/a = 0.1 cell
+    ideal = {r.name: r.sensitivity for r in run(2.0, fem=False).budget.rows}
+    for name in ("thickness", "loaded spacing"):
+        assert sens[name] == pytest.approx(ideal[name], rel=0.05)
+
+
 @pytest.fixture(scope="module")
 def two_fluid_case():
     eps = complex(2.3, -2.3 * 4e-4)
