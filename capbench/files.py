@@ -1843,50 +1843,52 @@ def _measurement_readings(meth: _Table, path: Path, name: str, method: str) -> t
     for key in need:
         missing = [r.line for r in readings if getattr(r, key) is None]
         if missing:
-            raise _error(
-                f"{target.name}, line {missing[0]}: the {method} method needs a "
-                f"{key.replace('_', ' ')!r} reading in every row",
-                file=target.name,
-                line=missing[0],
-                key=key,
+            raise _row_error(
+                target.name,
+                missing[0],
+                key,
+                f"the {method} method needs a {key.replace('_', ' ')!r} reading in every row",
             )
     for key in ("dissipation", "empty_dissipation"):
         have = [getattr(r, key) is not None for r in readings]
         if any(have) and not all(have):
             line = readings[have.index(False)].line
-            raise _error(
-                f"{target.name}, line {line}: {key.replace('_', ' ')} is blank here but "
-                "given in other rows; give it in every row or in none",
-                file=target.name,
-                line=line,
-                key=key,
+            raise _row_error(
+                target.name,
+                line,
+                key,
+                f"{key.replace('_', ' ')} is blank here but given in other rows; give it in "
+                "every row or in none",
             )
     used = set(need) | set(_optional)
     for name, (key, _kind, _unit) in _COLUMNS.items():
         rows = [r.line for r in readings if getattr(r, key) is not None]
         if key not in used and rows:
             columns = ", ".join(repr(n) for n, spec in _COLUMNS.items() if spec[0] in used)
-            raise _error(
-                f"{target.name}, line {rows[0]}: the {method} method takes no {name!r} column; "
-                f"valid columns for it: {columns}",
-                file=target.name,
-                line=rows[0],
-                key=key,
+            raise _row_error(
+                target.name,
+                rows[0],
+                key,
+                f"the {method} method takes no {name!r} column; valid columns for it: {columns}",
                 valid=sorted(used),
             )
     if method == "micrometer" and readings[0].empty_dissipation is not None:
         if readings[0].dissipation is None:
-            raise _error(
-                f"{target.name}, line {readings[0].line}: an 'empty dissipation factor' needs "
-                "the 'dissipation factor' column too (the micrometer method's loss is the "
-                "difference of the two)",
-                file=target.name,
-                line=readings[0].line,
-                key="empty_dissipation",
+            raise _row_error(
+                target.name,
+                readings[0].line,
+                "empty_dissipation",
+                "an 'empty dissipation factor' needs the 'dissipation factor' column too (the "
+                "micrometer method's loss is the difference of the two)",
             )
     if method == "two_fluid":
         _check_fluid_rows(readings, target.name)
     return readings
+
+
+def _row_error(source: str, line: int, key: str, message: str, **details: Any):
+    """A refusal of a readings file's row: file, line, then what is wrong."""
+    return _error(f"{source}, line {line}: {message}", file=source, line=line, key=key, **details)
 
 
 def _check_fluid_rows(readings: tuple[Reading, ...], source: str) -> None:
@@ -1896,13 +1898,12 @@ def _check_fluid_rows(readings: tuple[Reading, ...], source: str) -> None:
         for k in FLUIDS:
             if not any(r.fluid == k for r in rows):
                 lines = ", ".join(str(r.line) for r in rows)
-                raise _error(
-                    f"{source}, line {rows[0].line}: no row in fluid {k} at {f:g} Hz (rows at "
-                    f"{f:g} Hz: lines {lines}); the two_fluid method needs rows with fluid = "
-                    f"{_FLUID_TEXT} at every frequency",
-                    file=source,
-                    line=rows[0].line,
-                    key="fluid",
+                raise _row_error(
+                    source,
+                    rows[0].line,
+                    "fluid",
+                    f"no row in fluid {k} at {f:g} Hz (rows at {f:g} Hz: lines {lines}); the "
+                    f"two_fluid method needs rows with fluid = {_FLUID_TEXT} at every frequency",
                     value=k,
                     valid=FLUIDS,
                 )
