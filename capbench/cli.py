@@ -385,6 +385,16 @@ def _cmd_solve(args, out: _Out) -> int:
     return EXIT_OK
 
 
+# the optional columns of a logged reading `log show` prints where a row has them
+_LOGGED_READING_EXTRAS = (
+    ("empty_capacitance", "empty", lambda x: f"{x * 1e12:.6g} pF"),
+    ("empty_dissipation", "empty D", lambda x: f"{x:.6g}"),
+    ("loaded_spacing", "s1", lambda x: f"{x * 1e3:.6g} mm"),
+    ("empty_spacing", "s2", lambda x: f"{x * 1e3:.6g} mm"),
+    ("fluid", "fluid", lambda x: f"{x}"),
+)
+
+
 def _open_log(args):
     from .store import BenchLog
 
@@ -737,7 +747,14 @@ def _cmd_log(args, out: _Out) -> int:
             out.line(f"{len(e.readings)} readings:")
             for r in e.readings:
                 d = "-" if r["dissipation"] is None else f"{r['dissipation']:.6g}"
-                out.line(f"  {r['frequency']:>12g} Hz  {r['capacitance'] * 1e12:>12.6g} pF  D {d}")
+                more = "".join(
+                    f"  {label} {fmt(r[key])}"
+                    for key, label, fmt in _LOGGED_READING_EXTRAS
+                    if r.get(key) is not None
+                )
+                out.line(
+                    f"  {r['frequency']:>12g} Hz  {r['capacitance'] * 1e12:>12.6g} pF  D {d}{more}"
+                )
             out.line(f"{len(e.results)} results:")
             for r in e.results:
                 f = "-" if r["frequency"] is None else f"{r['frequency']:g} Hz"

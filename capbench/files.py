@@ -74,7 +74,9 @@ FIXTURE_SCHEMA = "capbench-fixture/1"
 SCHEMA = "capbench-measurement/1"
 READINGS_SCHEMA = "capbench-readings/1"
 #: methods a measurement file can name, and what each needs in its readings table
-METHODS = ("contacting", "air_gap", "liquid")
+METHODS = ("contacting", "air_gap", "liquid", "micrometer", "two_fluid")
+#: the values of the readings table's ``fluid`` column (two-fluid method)
+FLUIDS = (1, 2)
 
 #: files larger than these are refused before they are parsed
 MAX_TOML_BYTES = 1 << 20  # 1 MiB: a fixture or measurement file is a few kB
@@ -92,6 +94,10 @@ _COLUMNS = {
     "dissipation factor": ("dissipation", "dimensionless", ""),
     "empty capacitance": ("empty_capacitance", "capacitance", "F"),
     "empty dissipation factor": ("empty_dissipation", "dimensionless", ""),
+    "loaded spacing": ("loaded_spacing", "length", "mm"),
+    "empty spacing": ("empty_spacing", "length", "mm"),
+    # which fluid a row was read in (two-fluid method): a plain 1 or 2, no unit
+    "fluid": ("fluid", "fluid", ""),
 }
 # columns each method needs and may use
 _METHOD_COLUMNS = {
@@ -104,12 +110,25 @@ _METHOD_COLUMNS = {
         ("frequency", "capacitance", "empty_capacitance"),
         ("dissipation", "empty_dissipation"),
     ),
+    "micrometer": (
+        ("frequency", "capacitance", "empty_capacitance", "loaded_spacing", "empty_spacing"),
+        ("dissipation", "empty_dissipation"),
+    ),
+    # the fluids are taken as lossless: no empty dissipation factor
+    "two_fluid": (("frequency", "capacitance", "empty_capacitance", "fluid"), ("dissipation",)),
 }
 # [method] keys each method accepts (beyond name and readings): key -> kind
 _METHOD_OPTIONS = {
     "contacting": {"stray": "capacitance"},
     "air_gap": {"stray": "capacitance", "spacing": "length"},
     "liquid": {"empty_eps_r": "eps", "stray": "capacitance"},
+    "micrometer": {"spacing_half_width": "length"},
+    "two_fluid": {
+        "fluid1": "material",
+        "fluid2": "material",
+        "eps_fluid1": "eps",
+        "eps_fluid2": "eps",
+    },
 }
 
 
@@ -960,9 +979,12 @@ class _suppress:
 
 @dataclass(frozen=True)
 class Reading:
-    """One row of a readings table, in SI: Hz, F, and D (None where not read).
+    """One row of a readings table, in SI: Hz, F, D and m (None where not read).
 
-    ``line``: the row's line in its file (for messages)."""
+    ``line``: the row's line in its file (for messages). ``loaded_spacing`` and
+    ``empty_spacing``: the micrometer electrode's spacings s1 (with the specimen) and s2
+    (re-set without it); ``fluid``: 1 or 2, the fluid a two-fluid row was read in.
+    """
 
     frequency: float
     capacitance: float
@@ -970,15 +992,32 @@ class Reading:
     empty_capacitance: float | None = None
     empty_dissipation: float | None = None
     line: int = 0
+    loaded_spacing: float | None = None
+    empty_spacing: float | None = None
+    fluid: int | None = None
 
 
 def read_readings(path: str | os.PathLike) -> tuple[Reading, ...]:
     """Read a ``capbench-readings/1`` CSV file.
 
-    The header row names the columns with units in brackets: ``frequency [Hz]``,
-    ``capacitance [pF]``, ``dissipation factor``, ``empty capacitance [pF]``, ``empty
-    dissipation factor``; one row per reading follows. Lines starting with ``#`` are
-    comments. Decimal points, not commas.
+    The header row names the columns with units in brackets; one row per reading
+    follows. Lines starting with ``#`` are comments. Decimal points, not commas.
+
+    Columns (``frequency`` and ``capacitance`` in every table; the others as the
+    measurement's method needs, see :func:`read_measurement`):
+
+    ``frequency [Hz]``, ``capacitance [pF]``
+        The bridge reading (with the specimen, or the filled cell).
+    ``dissipation factor``
+        D of that reading.
+    ``empty capacitance [pF]``, ``empty dissipation factor``
+        The reading without the specimen (air gap: empty cell; liquid: empty cell;
+        micrometer: after the re-set; two-fluid: the cell in the row's fluid).
+    ``loaded spacing [mm]``, ``empty spacing [mm]``
+        Micrometer method: the electrode spacing s1 with the specimen and s2 after the
+        re-set without it (lengths, 1 um to 10 m).
+    ``fluid``
+        Two-fluid method: 1 or 2, the fluid the row was read in (a plain integer).
 
     Raises
     ------
@@ -1068,7 +1107,16 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
                 value=name,
             )
         seen.add(spec[0])
-        if unit:
+        if spec[1] == "fluid":
+            if unit:
+                raise _error(
+                    f"{source}, line {header_line}: column {j} {head.strip()!r}: the fluid "
+                    f"column takes no unit; valid: 'fluid' (cells {_FLUID_TEXT})",
+                    file=source,
+                    line=header_line,
+                    value=unit,
+                )
+        elif unit:
             try:
                 to_si(f"1 {unit}", spec[1], name)
             except CapbenchError:
@@ -1108,12 +1156,15 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
                 line=i,
                 value=len(row),
             )
-        vals: dict[str, float] = {}
+        vals: dict[str, Any] = {}
         for (spec, unit), cell in zip(columns, row, strict=True):
             field_name, kind, default = spec
             text_value = cell.strip()
             if field_name != "frequency" and field_name != "capacitance" and text_value == "":
                 continue  # an optional reading left blank
+            if kind == "fluid":
+                vals[field_name] = _fluid_cell(text_value, source, i)
+                continue
             try:
                 if len(text_value) > MAX_NUMBER_CHARS or not _UNITLESS.match(text_value):
                     raise ValueError(text_value)
@@ -1137,17 +1188,27 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
                 ) from None
             vals[field_name] = value
         _check_row(vals, source, i, row)
-        out.append(
-            Reading(
-                vals["frequency"],
-                vals["capacitance"],
-                vals.get("dissipation"),
-                vals.get("empty_capacitance"),
-                vals.get("empty_dissipation"),
-                i,
-            )
-        )
+        out.append(Reading(**vals, line=i))
     return tuple(out)
+
+
+_FLUID_TEXT = " or ".join(str(k) for k in FLUIDS)
+
+
+def _fluid_cell(text: str, source: str, line: int) -> int:
+    """The fluid a two-fluid row was read in: the plain integer 1 or 2 (not 1.0, not
+    'air': the names and permittivities of the fluids are in the [method] table)."""
+    if text not in [str(k) for k in FLUIDS]:
+        raise _error(
+            f"{source}, line {line}: fluid = {text[:80]!r}; valid: {_FLUID_TEXT} (the fluid "
+            "numbered fluid1/eps_fluid1 or fluid2/eps_fluid2 in the measurement's [method])",
+            file=source,
+            line=line,
+            key="fluid",
+            value=text,
+            valid=FLUIDS,
+        )
+    return int(text)
 
 
 def _column_help() -> list[str]:
@@ -1157,24 +1218,37 @@ def _column_help() -> list[str]:
         "dissipation factor",
         "empty capacitance [pF]",
         "empty dissipation factor",
+        "loaded spacing [mm]",
+        "empty spacing [mm]",
+        f"fluid ({_FLUID_TEXT})",
     ]
 
 
-def _check_row(vals: dict[str, float], source: str, line: int, row: list[str]) -> None:
+# the limit (a key of capbench.validate.LIMITS) of each numeric column; the fluid column
+# is checked as it is read (_fluid_cell)
+_ROW_LIMITS = {
+    "frequency": "frequency",
+    "capacitance": "capacitance",
+    "empty_capacitance": "capacitance",
+    "dissipation": "loss",
+    "empty_dissipation": "loss",
+    "loaded_spacing": "length",
+    "empty_spacing": "length",
+}
+# columns whose value must be above 0, not only in range (a D of 0 is a lossless reading)
+_POSITIVE = ("frequency", "capacitance", "empty_capacitance", "loaded_spacing", "empty_spacing")
+
+
+def _check_row(vals: dict[str, Any], source: str, line: int, row: list[str]) -> None:
     from . import validate
 
-    limits = {
-        "frequency": "frequency",
-        "capacitance": "capacitance",
-        "empty_capacitance": "capacitance",
-        "dissipation": "loss",
-        "empty_dissipation": "loss",
-    }
     for key, value in vals.items():
+        if key not in _ROW_LIMITS:
+            continue
         try:
-            validate.check(value, limits[key], key.replace("_", " "), positive=False)
-            if key in ("frequency", "capacitance", "empty_capacitance"):
-                validate.check(value, limits[key], key.replace("_", " "))
+            validate.check(value, _ROW_LIMITS[key], key.replace("_", " "), positive=False)
+            if key in _POSITIVE:
+                validate.check(value, _ROW_LIMITS[key], key.replace("_", " "))
         except CapbenchError as exc:
             raise _error(
                 f"{source}, line {line}: {exc}", file=source, line=line, key=key, value=value
@@ -1182,6 +1256,28 @@ def _check_row(vals: dict[str, float], source: str, line: int, row: list[str]) -
 
 
 # --------------------------------------------------------------------------- measurements
+
+
+def _mean(values: list[Any], many: str, one: str, unit: str) -> Any:
+    """The mean of repeated readings as an input: type A (GUM 4.2) over two or more, a
+    single reading with no type A part."""
+    from . import uncertainty as unc
+
+    if len(values) == 1:
+        return unc.type_b(values[0], u=f"0 {unit}".strip(), name=one)
+    return unc.type_a(values, many)
+
+
+def _length_input(values: Any, half_width: float, many: str, one: str, instrument: str) -> Any:
+    """Length readings (m) as an input in mm: their mean (:func:`_mean`) plus the reading
+    instrument's error, rectangular with ``half_width`` (m; 0: none)."""
+    from . import uncertainty as unc
+    from .units import Q_
+
+    mean = _mean([Q_(x * 1e3, "mm") for x in values], many, one, "mm")
+    if half_width <= 0:
+        return mean
+    return mean + unc.type_b(Q_(0.0, "mm"), half_width=Q_(half_width * 1e3, "mm"), name=instrument)
 
 
 @dataclass(frozen=True)
@@ -1236,82 +1332,119 @@ class Measurement:
     def thickness(self):
         """The specimen's thickness: mean of the micrometer readings (type A) plus the
         micrometer's calibration error (type B, rectangular), in mm."""
-        from . import uncertainty as unc
-        from .units import Q_
-
-        readings = [Q_(t * 1e3, "mm") for t in self.thickness_readings]
-        if len(readings) == 1:
-            mean = unc.type_b(readings[0], u="0 mm", name="specimen thickness (one reading)")
-        else:
-            mean = unc.type_a(readings, "specimen thickness (micrometer readings)")
-        if self.micrometer_half_width <= 0:
-            return mean
-        calibration = unc.type_b(
-            Q_(0.0, "mm"),
-            half_width=Q_(self.micrometer_half_width * 1e3, "mm"),
-            name="micrometer calibration",
+        return _length_input(
+            self.thickness_readings,
+            self.micrometer_half_width,
+            "specimen thickness (micrometer readings)",
+            "specimen thickness (one reading)",
+            "micrometer calibration",
         )
-        return mean + calibration
 
     def _bridge(self, values: list[float], spec: AccuracySpec | None, what: str, unit: str):
-        from . import uncertainty as unc
         from .units import Q_
 
         scale = 1e12 if unit == "pF" else 1.0
         qs = [Q_(x * scale, unit) if unit else x for x in values]
-        if len(qs) == 1:
-            mean = unc.type_b(qs[0], u=f"0 {unit}".strip(), name=f"{what} (one reading)")
-        else:
-            mean = unc.type_a(qs, f"{what} readings")
+        mean = _mean(qs, f"{what} readings", f"{what} (one reading)", unit)
         return mean if spec is None else spec.apply(mean, f"bridge accuracy, {what}")
+
+    def _group(self, rows: tuple[Reading, ...], tag: str) -> dict[str, Any]:
+        """The inputs of one group of repeated rows (one frequency, or one frequency and
+        fluid), by Reading field; a field blank in any row of the group is left out."""
+
+        def given(key: str) -> list[Any] | None:
+            values = [getattr(r, key) for r in rows]
+            return None if any(v is None for v in values) else values
+
+        out: dict[str, Any] = {}
+        for key, what, spec, unit in (
+            ("capacitance", "C", self.capacitance_accuracy, "pF"),
+            ("dissipation", "D", self.dissipation_accuracy, ""),
+            ("empty_capacitance", "empty C", self.capacitance_accuracy, "pF"),
+            ("empty_dissipation", "empty D", self.dissipation_accuracy, ""),
+        ):
+            values = given(key)
+            if values is not None:
+                out[key] = self._bridge(values, spec, f"{what} {tag}", unit)
+        half = dict(self.method_options).get("spacing_half_width", 0.0)
+        for key, what in (
+            ("loaded_spacing", "s1"),
+            ("empty_spacing", "s2"),
+        ):
+            values = given(key)
+            if values is not None:
+                out[key] = _length_input(
+                    values,
+                    half,
+                    f"{what} {tag} readings",
+                    f"{what} {tag} (one reading)",
+                    f"spacing scale accuracy, {what} {tag}",
+                )
+        return out
+
+    def _temperature(self):
+        """The temperature in degC, uncertain when the file gives its uncertainty (a
+        standard uncertainty, normal): one input, so every value computed from it (the
+        two fluids' permittivities) stays correlated."""
+        from . import uncertainty as unc
+        from .units import Q_
+
+        if self.temperature_uncertainty <= 0:
+            return self.temperature
+        return unc.type_b(
+            Q_(self.temperature, "degC"),
+            u=Q_(self.temperature_uncertainty, "K"),
+            name="temperature (thermometer)",
+        )
+
+    def fluid_eps(self, k: int, temperature: Any = None) -> Any:
+        """Fluid ``k``'s relative permittivity (two-fluid method): ``eps_fluid{k}`` as
+        given, or the reference material ``fluid{k}`` of :mod:`capbench.materials` at
+        ``temperature`` (default: the file's, with its uncertainty)."""
+        from . import materials
+
+        opts = dict(self.method_options)
+        if f"eps_fluid{k}" in opts:
+            return opts[f"eps_fluid{k}"]
+        t = self._temperature() if temperature is None else temperature
+        return materials.material(opts[f"fluid{k}"]).at(t)
 
     def inputs(self) -> dict[str, Any]:
         """The uncertain inputs of the extraction, built from the file.
 
-        Per frequency: the mean of the repeated readings (type A; a single reading has no
-        type A part) plus the bridge's accuracy specification (type B, rectangular,
-        taken as independent between frequencies and between empty and loaded
-        readings, a conservative choice). The thickness as :attr:`thickness`; each
-        toleranced dimension as its nominal value with a rectangular half-width.
+        Per frequency (two-fluid: per frequency and fluid): the mean of the repeated
+        readings (type A; a single reading has no type A part) plus the bridge's
+        accuracy specification (type B, rectangular, taken as independent between
+        frequencies and between empty and loaded readings, a conservative choice). The
+        thickness as :attr:`thickness`; each toleranced dimension as its nominal value
+        with a rectangular half-width. Micrometer method: the spacings s1 and s2 as the
+        mean of their readings plus ``spacing_half_width`` (rectangular), independent
+        for s1 and s2 (conservative: a zero error common to both would partly cancel).
+        Two-fluid method: each fluid's permittivity from :meth:`fluid_eps`, both at one
+        uncertain temperature.
         Returns keyword arguments for the method of :mod:`capbench.extract`.
         """
         from . import uncertainty as unc
         from .units import Q_
 
-        caps, losses, empties, empty_losses = [], [], [], []
-        for f in self.frequencies:
-            rows = self.at(f)
-            tag = f"{f:g} Hz"
-            caps.append(
-                self._bridge(
-                    [r.capacitance for r in rows], self.capacitance_accuracy, f"C {tag}", "pF"
-                )
-            )
-            if all(r.dissipation is not None for r in rows):
-                losses.append(
-                    self._bridge(
-                        [r.dissipation for r in rows], self.dissipation_accuracy, f"D {tag}", ""
+        if self.method == "two_fluid":
+            groups = [
+                {
+                    k: self._group(
+                        tuple(r for r in self.at(f) if r.fluid == k), f"fluid {k}, {f:g} Hz"
                     )
-                )
-            if all(r.empty_capacitance is not None for r in rows):
-                empties.append(
-                    self._bridge(
-                        [r.empty_capacitance for r in rows],
-                        self.capacitance_accuracy,
-                        f"empty C {tag}",
-                        "pF",
-                    )
-                )
-            if all(r.empty_dissipation is not None for r in rows):
-                empty_losses.append(
-                    self._bridge(
-                        [r.empty_dissipation for r in rows],
-                        self.dissipation_accuracy,
-                        f"empty D {tag}",
-                        "",
-                    )
-                )
-        n = len(self.frequencies)
+                    for k in FLUIDS
+                }
+                for f in self.frequencies
+            ]
+        else:
+            groups = [self._group(self.at(f), f"{f:g} Hz") for f in self.frequencies]
+
+        def column(key: str, fluid: int | None = None) -> list[Any] | None:
+            """One input per frequency, or None when some frequency lacks it."""
+            values = [(g if fluid is None else g[fluid]).get(key) for g in groups]
+            return None if any(v is None for v in values) else values
+
         params = self.fixture.param_dict
         dims = {
             name: unc.type_b(
@@ -1323,26 +1456,44 @@ class Measurement:
         }
         kw: dict[str, Any] = {"frequency": list(self.frequencies), "dimensions": dims or None}
         opts = dict(self.method_options)
+        caps, losses = column("capacitance"), column("dissipation")
+        empties, empty_losses = column("empty_capacitance"), column("empty_dissipation")
         if self.method == "contacting":
             kw.update(capacitance=caps, thickness=self.thickness)
-            if len(losses) == n:
-                kw["dissipation"] = losses
         elif self.method == "air_gap":
             kw.update(empty=empties, loaded=caps, thickness=self.thickness)
-            if len(losses) == n:
-                kw["dissipation"] = losses
-            if len(empty_losses) == n:
-                kw["empty_dissipation"] = empty_losses
             if "spacing" in opts:
                 kw["spacing"] = opts["spacing"]
         elif self.method == "liquid":
             kw.update(empty=empties, filled=caps)
-            if len(losses) == n:
-                kw["dissipation"] = losses
-            if len(empty_losses) == n:
-                kw["empty_dissipation"] = empty_losses
             if "empty_eps_r" in opts:
                 kw["empty_eps_r"] = opts["empty_eps_r"]
+        elif self.method == "micrometer":
+            kw.update(
+                thickness=self.thickness,
+                loaded_spacing=column("loaded_spacing"),
+                empty_spacing=column("empty_spacing"),
+                capacitance=caps,
+                empty_capacitance=empties,
+            )
+        if self.method == "two_fluid":
+            t = self._temperature()
+            kw.update(
+                fluid1=column("empty_capacitance", 1),
+                fluid1_with_specimen=column("capacitance", 1),
+                fluid2=column("empty_capacitance", 2),
+                fluid2_with_specimen=column("capacitance", 2),
+                eps_fluid1=self.fluid_eps(1, t),
+                eps_fluid2=self.fluid_eps(2, t),
+            )
+            for k in FLUIDS:
+                if column("dissipation", k) is not None:
+                    kw[f"dissipation{k}"] = column("dissipation", k)
+        else:
+            if losses is not None:
+                kw["dissipation"] = losses
+            if empty_losses is not None and self.method != "contacting":
+                kw["empty_dissipation"] = empty_losses
         if "stray" in opts:
             kw["stray"] = opts["stray"]
         return kw
@@ -1382,9 +1533,40 @@ def read_measurement(path: str | os.PathLike, *, with_readings: bool = True) -> 
         [tolerances]  half-widths (rectangular) of fixture dimensions, e.g. electrode_radius
         [instrument]  name, capacitance_accuracy, dissipation_accuracy ("x % of reading + y")
         [conditions]  temperature, temperature_uncertainty
-        [method]      name (contacting, air_gap, liquid), readings (CSV file, relative to
-                      this file), and the method's options: stray (capacitance), spacing
-                      (air_gap), empty_eps_r (liquid)
+        [method]      name (contacting, air_gap, liquid, micrometer, two_fluid), readings
+                      (CSV file, relative to this file), and the method's options: stray
+                      (capacitance; contacting, air_gap, liquid), spacing (air_gap),
+                      empty_eps_r (liquid), spacing_half_width (micrometer), fluid1 or
+                      eps_fluid1 and fluid2 or eps_fluid2 (two_fluid)
+
+    The methods and their readings columns (:func:`read_readings`; a column a method
+    does not use is refused, a blank optional cell is not a reading):
+
+    contacting
+        frequency, capacitance; optional dissipation factor. Thickness: [specimen].
+    air_gap, liquid
+        frequency, capacitance (with the specimen / filled), empty capacitance; optional
+        dissipation factor, empty dissipation factor.
+    micrometer
+        frequency, capacitance C1 (with the specimen, electrodes at spacing s1), empty
+        capacitance C2 (after the re-set without it, at s2), loaded spacing s1, empty
+        spacing s2; optional dissipation factor D1 and empty dissipation factor D2 (D2
+        needs D1). Thickness t: [specimen]. ``spacing_half_width``: the micrometer
+        electrode's accuracy, a rectangular half-width added to s1 and s2 (default 0;
+        at most a tenth of the smallest spacing).
+    two_fluid
+        frequency, fluid (1 or 2), empty capacitance (the cell in that fluid without
+        the specimen), capacitance (with the specimen); optional dissipation factor
+        (with the specimen). Rows in both fluids at every frequency. For each fluid k
+        exactly one of ``fluid{k}`` (a key of :data:`capbench.materials.MATERIALS`,
+        evaluated at [conditions] temperature, whose ``temperature_uncertainty`` is
+        taken as a standard uncertainty shared by both fluids) or ``eps_fluid{k}`` (a
+        real relative permittivity). The specimen's thickness is fitted by the method;
+        the [specimen] thickness readings are recorded, and the fixture's own specimen
+        thickness starts the fit.
+
+    Repeated rows at one frequency (and fluid) are averaged (type A); see
+    :meth:`Measurement.inputs`.
 
     Raises
     ------
@@ -1452,12 +1634,7 @@ def read_measurement(path: str | os.PathLike, *, with_readings: bool = True) -> 
     d_acc = _accuracy(inst, "dissipation_accuracy", required=False)
     method = meth.text("name")
     if method not in METHODS:
-        raise meth.error(
-            "name",
-            f"= {method!r}; valid: {list(METHODS)} (micrometer and two-fluid readings have "
-            "no file format yet: call capbench.extract directly)",
-            value=method,
-        )
+        raise meth.error("name", f"= {method!r}; valid: {list(METHODS)}", value=method)
     options = _method_options(meth, method)
     micrometer = spec.quantity("micrometer", "length", default="0 m")
     if micrometer < 0 or micrometer > 0.1 * min(readings_t):
@@ -1472,10 +1649,15 @@ def read_measurement(path: str | os.PathLike, *, with_readings: bool = True) -> 
     temperature = _in_range(
         cond, "temperature", cond.quantity("temperature", "temperature"), "temperature"
     )
+    temperature_u = _kelvin(cond, "temperature_uncertainty")
+    if method == "two_fluid":
+        _check_fluids(meth, temperature)
     readings_name = meth.text("readings")
     readings: tuple[Reading, ...] = ()
     if with_readings:
         readings = _measurement_readings(meth, path, readings_name, method)
+    if method == "micrometer":
+        _check_spacing_half_width(meth, options, readings_t, readings)
     return Measurement(
         path=path,
         lab=lab.text("name"),
@@ -1491,7 +1673,7 @@ def read_measurement(path: str | os.PathLike, *, with_readings: bool = True) -> 
         capacitance_accuracy=cap_acc,
         dissipation_accuracy=d_acc,
         temperature=temperature,
-        temperature_uncertainty=_kelvin(cond, "temperature_uncertainty"),
+        temperature_uncertainty=temperature_u,
         method=method,
         readings=readings,
         operator=lab.text("operator", ""),
@@ -1545,8 +1727,104 @@ def _method_options(meth: _Table, method: str) -> tuple[tuple[str, Any], ...]:
                 key, f"is not an option of the {method} method; valid: {sorted(allowed)}"
             )
         kind = allowed[key]
-        out.append((key, meth.eps(key) if kind == "eps" else meth.quantity(key, kind)))
+        if kind == "eps":
+            value = meth.eps(key)
+        elif kind == "material":
+            value = _material_name(meth, key)
+        else:
+            value = meth.quantity(key, kind)
+        out.append((key, value))
     return tuple(out)
+
+
+def _material_name(meth: _Table, key: str) -> str:
+    """A key of :data:`capbench.materials.MATERIALS` (case and spaces as material())."""
+    from .materials import MATERIALS
+
+    name = meth.text(key)
+    if name.strip().lower() not in MATERIALS:
+        raise meth.error(
+            key,
+            f"= {name!r} is not a reference material of capbench.materials; valid: "
+            f"{sorted(MATERIALS)}, or give the fluid's permittivity as eps_{key}",
+            value=name,
+            valid=sorted(MATERIALS),
+        )
+    return name.strip().lower()
+
+
+def _check_fluids(meth: _Table, temperature: float) -> None:
+    """Two-fluid method: each fluid named (fluid1) or its permittivity given
+    (eps_fluid1), exactly one of the two; real permittivities (the method takes the
+    fluids as lossless) in range and different from each other."""
+    from . import validate
+    from .materials import material
+
+    eps = {}
+    for k in FLUIDS:
+        name, value = f"fluid{k}", f"eps_fluid{k}"
+        valid = (
+            f"valid: exactly one of {name} (a reference material, e.g. 'cyclohexane') or "
+            f"{value} (its relative permittivity, e.g. 2.0194)"
+        )
+        if meth.has(name) and meth.has(value):
+            raise meth.error(
+                name,
+                f"= {meth.get(name)!r} and {value} = {meth.get(value)!r} are both given; {valid}",
+                value=meth.get(name),
+            )
+        if not meth.has(name) and not meth.has(value):
+            raise meth.error(None, f"has neither {name} nor {value}; {valid}")
+        if meth.has(name):
+            try:
+                eps[k] = float(material(meth.get(name)).at(temperature).n)
+            except CapbenchError as exc:
+                raise meth.error(
+                    name, f"= {meth.get(name)!r}: {exc}", value=meth.get(name)
+                ) from None
+            continue
+        raw = meth.eps(value)
+        if isinstance(raw, complex):
+            raise meth.error(
+                value,
+                f"= {meth.get(value)!r} has a loss part; valid: a real relative permittivity "
+                "(the two-fluid method takes the fluids as lossless)",
+                value=meth.get(value),
+            )
+        try:
+            eps[k] = validate.check(raw, "eps_r", value)
+        except CapbenchError as exc:
+            raise meth.error(value, f"= {meth.get(value)!r}: {exc}", value=raw) from None
+    if abs(eps[2] - eps[1]) < 1e-6 * eps[1]:
+        key = "fluid2" if meth.has("fluid2") else "eps_fluid2"
+        raise meth.error(
+            key,
+            f"= {meth.get(key)!r}: eps_r {eps[2]:.6g}, the same as fluid 1's ({eps[1]:.6g}); "
+            "valid: two fluids of different permittivity",
+            value=eps[2],
+        )
+
+
+def _check_spacing_half_width(
+    meth: _Table, options: tuple, thickness: tuple[float, ...], readings: tuple[Reading, ...]
+) -> None:
+    """Micrometer method: the spacing readings' half-width, 0 up to a tenth of the
+    smallest spacing read (of the thinnest thickness reading before the readings are
+    read); more is a unit typed wrong, not an electrode's accuracy."""
+    half = dict(options).get("spacing_half_width")
+    if half is None:
+        return
+    spacings = [s for r in readings for s in (r.loaded_spacing, r.empty_spacing) if s]
+    smallest = min(spacings or thickness)
+    if not (0 <= half <= 0.1 * smallest):
+        of = "the smallest spacing reading" if spacings else "the thinnest thickness reading"
+        raise meth.error(
+            "spacing_half_width",
+            f"= {meth.get('spacing_half_width')!r}; valid: 0 mm to "
+            f"{0.1 * smallest * 1e3:.6g} mm (a tenth of {of})",
+            value=half,
+            valid=(0.0, 0.1 * smallest),
+        )
 
 
 def _measurement_readings(meth: _Table, path: Path, name: str, method: str) -> tuple[Reading, ...]:
@@ -1565,30 +1843,70 @@ def _measurement_readings(meth: _Table, path: Path, name: str, method: str) -> t
     for key in need:
         missing = [r.line for r in readings if getattr(r, key) is None]
         if missing:
-            raise _error(
-                f"{target.name}, line {missing[0]}: the {method} method needs a "
-                f"{key.replace('_', ' ')!r} reading in every row",
-                file=target.name,
-                line=missing[0],
-                key=key,
+            raise _row_error(
+                target.name,
+                missing[0],
+                key,
+                f"the {method} method needs a {key.replace('_', ' ')!r} reading in every row",
             )
     for key in ("dissipation", "empty_dissipation"):
         have = [getattr(r, key) is not None for r in readings]
         if any(have) and not all(have):
             line = readings[have.index(False)].line
-            raise _error(
-                f"{target.name}, line {line}: {key.replace('_', ' ')} is blank here but "
-                "given in other rows; give it in every row or in none",
-                file=target.name,
-                line=line,
-                key=key,
+            raise _row_error(
+                target.name,
+                line,
+                key,
+                f"{key.replace('_', ' ')} is blank here but given in other rows; give it in "
+                "every row or in none",
             )
-    if method == "contacting" and any(r.empty_capacitance is not None for r in readings):
-        raise _error(
-            f"{target.name}: the contacting method takes no 'empty capacitance' column",
-            file=target.name,
-        )
+    used = set(need) | set(_optional)
+    for name, (key, _kind, _unit) in _COLUMNS.items():
+        rows = [r.line for r in readings if getattr(r, key) is not None]
+        if key not in used and rows:
+            columns = ", ".join(repr(n) for n, spec in _COLUMNS.items() if spec[0] in used)
+            raise _row_error(
+                target.name,
+                rows[0],
+                key,
+                f"the {method} method takes no {name!r} column; valid columns for it: {columns}",
+                valid=sorted(used),
+            )
+    if method == "micrometer" and readings[0].empty_dissipation is not None:
+        if readings[0].dissipation is None:
+            raise _row_error(
+                target.name,
+                readings[0].line,
+                "empty_dissipation",
+                "an 'empty dissipation factor' needs the 'dissipation factor' column too (the "
+                "micrometer method's loss is the difference of the two)",
+            )
+    if method == "two_fluid":
+        _check_fluid_rows(readings, target.name)
     return readings
+
+
+def _row_error(source: str, line: int, key: str, message: str, **details: Any):
+    """A refusal of a readings file's row: file, line, then what is wrong."""
+    return _error(f"{source}, line {line}: {message}", file=source, line=line, key=key, **details)
+
+
+def _check_fluid_rows(readings: tuple[Reading, ...], source: str) -> None:
+    """Two-fluid method: rows in both fluids at every frequency."""
+    for f in sorted({r.frequency for r in readings}):
+        rows = [r for r in readings if r.frequency == f]
+        for k in FLUIDS:
+            if not any(r.fluid == k for r in rows):
+                lines = ", ".join(str(r.line) for r in rows)
+                raise _row_error(
+                    source,
+                    rows[0].line,
+                    "fluid",
+                    f"no row in fluid {k} at {f:g} Hz (rows at {f:g} Hz: lines {lines}); the "
+                    f"two_fluid method needs rows with fluid = {_FLUID_TEXT} at every frequency",
+                    value=k,
+                    valid=FLUIDS,
+                )
 
 
 def _kelvin(table: _Table, key: str) -> float:

@@ -859,30 +859,55 @@ def _inputs(m: Any) -> dict:
         "capacitance accuracy": f"{m.capacitance_accuracy.percent:g} % of reading + "
         f"{m.capacitance_accuracy.offset:~P}",
         "temperature": f"{m.temperature:g} degC +- {m.temperature_uncertainty:g} K "
-        "(no temperature coefficient applied)",
+        + (
+            "(applied to the reference fluids' permittivities only)"
+            if any(k in ("fluid1", "fluid2") for k, _v in m.method_options)
+            else "(no temperature coefficient applied)"
+        ),
     }
     if m.dissipation_accuracy is not None:
         d = m.dissipation_accuracy
         out["dissipation accuracy"] = f"{d.percent:g} % of reading + {d.offset:~P}"
     for name, half in m.tolerances:
         out[f"tolerance of {name}"] = f"+- {half * 1e3:.4g} mm (rectangular)"
-    header = ["line", "frequency", "C (pF)", "D"]
-    has_empty = any(r.empty_capacitance is not None for r in m.readings)
-    if has_empty:
-        header += ["empty C (pF)", "empty D"]
+    opts = dict(m.method_options)
+    if "spacing_half_width" in opts:
+        out["spacing scale accuracy (half-width)"] = (
+            f"{opts['spacing_half_width'] * 1e6:.4g} um (rectangular, each of s1 and s2)"
+        )
+    if m.method == "two_fluid":
+        for k in (1, 2):
+            eps = m.fluid_eps(k, m.temperature)
+            name = opts.get(f"fluid{k}")
+            out[f"fluid {k}"] = (
+                f"{name}, eps_r {float(eps.n):.6g} at {m.temperature:g} degC "
+                "(capbench.materials, with the temperature's uncertainty)"
+                if name
+                else f"eps_r {float(eps):.6g} (given)"
+            )
+    # the columns of the table: the two first always, the others where a row has them
+    columns = [
+        ("fluid", "fluid", lambda x: f"{x:d}"),
+        ("capacitance", "C (pF)", lambda x: f"{x * 1e12:.6g}"),
+        ("dissipation", "D", lambda x: f"{x:.6g}"),
+        ("empty_capacitance", "empty C (pF)", lambda x: f"{x * 1e12:.6g}"),
+        ("empty_dissipation", "empty D", lambda x: f"{x:.6g}"),
+        ("loaded_spacing", "s1 (mm)", lambda x: f"{x * 1e3:.6g}"),
+        ("empty_spacing", "s2 (mm)", lambda x: f"{x * 1e3:.6g}"),
+    ]
+    shown = [
+        c
+        for c in columns
+        if c[0] in ("capacitance", "dissipation")
+        or any(getattr(r, c[0]) is not None for r in m.readings)
+    ]
+    header = ["line", "frequency", *(title for _key, title, _fmt in shown)]
     rows = []
     for r in m.readings:
-        row = [
-            r.line,
-            _hz(r.frequency),
-            f"{r.capacitance * 1e12:.6g}",
-            "-" if r.dissipation is None else f"{r.dissipation:.6g}",
-        ]
-        if has_empty:
-            row += [
-                "-" if r.empty_capacitance is None else f"{r.empty_capacitance * 1e12:.6g}",
-                "-" if r.empty_dissipation is None else f"{r.empty_dissipation:.6g}",
-            ]
+        row = [r.line, _hz(r.frequency)]
+        for key, _title, fmt in shown:
+            value = getattr(r, key)
+            row.append("-" if value is None else fmt(value))
         rows.append(row)
     out["readings"] = {"file": m.readings_file, "header": header, "rows": rows}
     return out

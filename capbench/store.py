@@ -41,7 +41,7 @@ from typing import Any
 from .errors import InputError, StoreError
 
 #: the schema version this capbench writes
-SCHEMA_VERSION = 2
+SCHEMA_VERSION = 3
 #: seconds a writer waits for another process's transaction before giving up
 BUSY_TIMEOUT = 30.0
 ENV_VAR = "CAPBENCH_LOG"
@@ -120,6 +120,26 @@ CREATE TABLE results (
 CREATE INDEX entries_created ON entries(created);
 """
 
+# version 3: the readings of the micrometer and two-fluid methods (measurement files
+# gained the spacing and fluid columns); older rows keep NULL there
+_V3 = """
+ALTER TABLE readings ADD COLUMN loaded_spacing REAL;
+ALTER TABLE readings ADD COLUMN empty_spacing REAL;
+ALTER TABLE readings ADD COLUMN fluid INTEGER;
+"""
+
+#: the columns of the readings table after ``entry_id`` and ``row``: Reading fields
+_READING_COLUMNS = (
+    "frequency",
+    "capacitance",
+    "dissipation",
+    "empty_capacitance",
+    "empty_dissipation",
+    "loaded_spacing",
+    "empty_spacing",
+    "fluid",
+)
+
 _RESULT_KEYS = (
     "frequency_hz",
     "eps_r",
@@ -153,6 +173,7 @@ def _backfill_results(conn: sqlite3.Connection) -> None:
 MIGRATIONS: dict[int, tuple[str, Callable[[sqlite3.Connection], None] | None]] = {
     1: (_V1, None),
     2: (_V2, _backfill_results),
+    3: (_V3, None),
 }
 
 
@@ -391,17 +412,10 @@ class BenchLog:
         )
         entry_id = cur.lastrowid
         c.executemany(
-            "INSERT INTO readings VALUES (?,?,?,?,?,?,?)",
+            f"INSERT INTO readings (entry_id, row, {', '.join(_READING_COLUMNS)}) "
+            f"VALUES (?, ?{', ?' * len(_READING_COLUMNS)})",
             [
-                (
-                    entry_id,
-                    i,
-                    r.frequency,
-                    r.capacitance,
-                    r.dissipation,
-                    r.empty_capacitance,
-                    r.empty_dissipation,
-                )
+                (entry_id, i, *(getattr(r, k) for k in _READING_COLUMNS))
                 for i, r in enumerate(e["readings"])
             ],
         )

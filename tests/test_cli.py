@@ -335,3 +335,73 @@ def test_no_arguments_runs_the_demo():
     assert proc.returncode == 0, proc.stderr
     assert "Quillfield bench 3 guarded cell: direct capacitance" in proc.stdout
     assert "Caution" in proc.stdout
+
+
+MICROMETER = DEMO / "qf-ps-07.toml"
+TWO_FLUID = DEMO / "qf-pmma-02.toml"
+
+
+def _demo_truth() -> dict:
+    """The invented permittivities make_demo.py solved the demo readings with."""
+    import importlib.util
+
+    spec = importlib.util.spec_from_file_location("make_demo", DEMO / "make_demo.py")
+    mod = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(mod)
+    return {"micrometer re-set": mod.PS_TRUE_EPS_R, "two fluid": mod.PMMA_TRUE_EPS_R}
+
+
+def test_extract_micrometer_closed_form_and_the_log(tmp_path):
+    log = tmp_path / "log.sqlite"
+    data = run_json("extract", MICROMETER, "--closed-form", "--log", "--log-file", log)
+    m = files.read_measurement(MICROMETER)
+    t = sum(m.thickness_readings) / len(m.thickness_readings)
+    for item, f in zip(data["points"], m.frequencies, strict=True):
+        rows = m.at(f)
+
+        def mean(key, rows=rows):
+            return sum(getattr(r, key) for r in rows) / len(rows)
+
+        # the re-set closed form eps* = t / (t - s1 + s2 C2*/C1*), C* = C (1 - jD)
+        # (ASTM D150, micrometer-electrode method; the ratio corrects an imperfect
+        # re-set), from the readings' means
+        c1 = mean("capacitance") * (1 - 1j * mean("dissipation"))
+        c2 = mean("empty_capacitance") * (1 - 1j * mean("empty_dissipation"))
+        eps = t / (t - mean("loaded_spacing") + mean("empty_spacing") * c2 / c1)
+        assert item["eps_r"] == pytest.approx(eps.real, rel=1e-9)
+    code, out, _err = run("log", "show", "1", "--log-file", log)
+    assert code == 0 and "s1 1.6535 mm" in out and "s2 0.6681 mm" in out
+
+
+def test_extract_two_fluid_closed_form_text():
+    code, out, err = run("extract", TWO_FLUID, "--closed-form")
+    assert code == 0, err
+    assert "QF-PMMA-02" in out and "two fluid" in out and "1000 Hz" in out
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("path", [MICROMETER, TWO_FLUID], ids=lambda p: p.stem)
+def test_extract_new_methods_json_finds_the_invented_permittivity(path, tmp_path):
+    log = tmp_path / "log.sqlite"
+    data = run_json("extract", path, "--rtol", "1e-5", "--log", "--log-file", log)
+    truth = _demo_truth()[data["method"]]
+    for item, eps in zip(data["points"], truth, strict=True):
+        # the readings are field solves of eps plus invented scatter well inside the
+        # bridge's accuracy: the result must cover the truth within its U (95 %)
+        assert abs(item["eps_r"] - eps) < item["U_eps_r"]
+        assert item["U_eps_r"] < 0.01 * eps  # and U is a bench's, not a placeholder's
+    entry = json.loads(run("log", "show", "1", "--log-file", log, "--json")[1])
+    assert len(entry["readings"]) == len(files.read_measurement(path).readings)
+
+
+def test_bad_two_fluid_file_exits_1_naming_key_and_value(tmp_path):
+    text = TWO_FLUID.read_text(encoding="utf-8").replace(
+        'fluid2 = "cyclohexane"', 'fluid2 = "treacle"'
+    )
+    (tmp_path / "m.toml").write_text(text, encoding="utf-8")
+    (tmp_path / "qf-pmma-02_readings.csv").write_text(
+        (DEMO / "qf-pmma-02_readings.csv").read_text(encoding="utf-8"), encoding="utf-8"
+    )
+    code, _out, err = run("extract", tmp_path / "m.toml")
+    assert code == 1 and "Traceback" not in err
+    assert "[method] fluid2 = 'treacle'" in err and "valid: ['air'" in err

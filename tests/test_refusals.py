@@ -15,7 +15,6 @@ import io
 import json
 import pathlib
 import re
-import shutil
 
 import pytest
 
@@ -88,9 +87,13 @@ def _method(name):
 
 
 def _measurement(args, tmp_path):
-    shutil.copy(DEMO / "qf-pe-03_readings.csv", tmp_path / "qf-pe-03_readings.csv")
+    """A demo measurement (default qf-pe-03) with text replaced in it ("replace") and in
+    its readings CSV ("csv"), copied to tmp_path."""
+    demo = args.get("demo", "qf-pe-03")
+    csv_name = f"{demo}_readings.csv"
+    (tmp_path / csv_name).write_text(_replaced(DEMO / csv_name, args.get("csv", [])))
     path = tmp_path / "case.toml"
-    path.write_text(_replaced(DEMO / "qf-pe-03.toml", args["replace"]))
+    path.write_text(_replaced(DEMO / f"{demo}.toml", args["replace"]))
     return files.read_measurement(path)
 
 

@@ -142,3 +142,21 @@ def test_build_refuses_nothing_and_wrong_types():
         report.build(extraction="2.3")
     with pytest.raises(cb.InputError, match=r"coverage = 95; valid: a probability"):
         report.build(fixture=cb.parallel_discs("25 mm", "2.5 mm"), coverage=95)
+
+
+@pytest.mark.parametrize(
+    ("name", "columns"),
+    [
+        ("qf-ps-07.toml", ["s1 (mm)", "s2 (mm)", "empty D"]),
+        ("qf-pmma-02.toml", ["fluid", "empty C (pF)"]),
+    ],
+)
+def test_readings_table_shows_the_new_columns(name, columns):
+
+    m = files.read_measurement(ROOT / "fixtures" / "quillfield" / name)
+    table = report._inputs(m)["readings"]
+    for column in columns:
+        assert column in table["header"]
+    assert len(table["rows"]) == len(m.readings)
+    if m.method == "two_fluid":
+        assert "cyclohexane, eps_r 2.0193" in report._inputs(m)["fluid 2"]

@@ -203,16 +203,60 @@ def test_migration_from_version_1(tmp_path):
     conn.execute("INSERT INTO readings VALUES (1, 0, 100.0, 2e-11, 2e-4, NULL, NULL)")
     conn.close()
     with store.BenchLog(path) as log:
-        assert log.schema_version == store.SCHEMA_VERSION == 2
+        assert log.schema_version == store.SCHEMA_VERSION == 3
         e = log.entry(1)
         assert e.operator == "" and e.capbench_version == "0.0.9"
         assert len(e.readings) == 1
         assert e.results[0]["eps_r"] == RESULTS[0]["eps_r"]
         assert e.results[0]["tan_delta"] == 2e-4
         applied = [r[0] for r in log._conn.execute("SELECT version FROM migrations")]
-        assert applied == [1, 2]
+        assert applied == [1, 2, 3]
         add_one(log)  # and it writes in the new schema
         assert log.entry(2).operator == "R. Quill"
+
+
+def test_migration_from_version_2_keeps_rows_and_adds_the_new_columns(tmp_path):
+    path = tmp_path / "v2.sqlite"
+    conn = sqlite3.connect(path, isolation_level=None)
+    assert store.migrate(conn, target=2) == 0
+    # an entry as capbench wrote it under schema 2: readings without spacings or fluid
+    conn.execute("INSERT INTO specimens VALUES ('QF-OLD-02', 'old sheet', '2024-02-01')")
+    conn.execute(
+        "INSERT INTO entries (created, kind, specimen_id, method, capbench_version, operator) "
+        "VALUES ('2024-02-01T10:00:00+00:00', 'extract', 'QF-OLD-02', 'air gap', '0.1.0', 'R. Q.')"
+    )
+    conn.execute("INSERT INTO readings VALUES (1, 0, 100.0, 2e-11, 2e-4, 1.2e-11, 1e-5)")
+    conn.close()
+    with store.BenchLog(path) as log:
+        assert log.schema_version == 3
+        old = log.entry(1).readings[0]
+        assert (old["frequency"], old["capacitance"], old["empty_capacitance"]) == (
+            100.0,
+            2e-11,
+            1.2e-11,
+        )
+        assert old["loaded_spacing"] is None and old["fluid"] is None
+        # new rows keep every field of a reading
+        rows = (
+            Reading(
+                1e3,
+                16.1e-12,
+                1.1e-4,
+                16.1e-12,
+                1e-5,
+                line=4,
+                loaded_spacing=1.6535e-3,
+                empty_spacing=0.6681e-3,
+            ),
+            Reading(1e3, 11.7e-12, 7.8e-3, 7.34e-12, line=5, fluid=2),
+        )
+        i = log.add(kind="extract", specimen_id="QF-PS-07", method="micrometer", readings=rows)
+    with store.BenchLog(path) as log:
+        back = log.entry(i).readings
+        for r, row in zip(rows, back, strict=True):
+            for key in store._READING_COLUMNS:
+                assert row[key] == getattr(r, key), key
+        assert back[1]["fluid"] == 2 and back[0]["empty_spacing"] == 0.6681e-3
 
 
 def test_bad_kind_and_limit(tmp_path):

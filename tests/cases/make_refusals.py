@@ -811,7 +811,11 @@ case(
     MEAS,
     {"replace": [['name = "contacting"', 'name = "guesswork"']]},
     "FileFormatError",
-    ["case.toml", "'guesswork'", "valid: ['contacting', 'air_gap', 'liquid']"],
+    [
+        "case.toml",
+        "'guesswork'",
+        "valid: ['contacting', 'air_gap', 'liquid', 'micrometer', 'two_fluid']",
+    ],
 )
 case(
     "measurement-accuracy-unreadable",
@@ -847,6 +851,58 @@ case(
     {"replace": [["[lab]", "# <<x*1048576>>\n[lab]"]]},
     "FileFormatError",
     ["case.toml", "bytes is over the 1,048,576-byte limit"],
+)
+
+# the micrometer and two-fluid demos (fixtures/quillfield/qf-ps-07.toml, qf-pmma-02.toml):
+# "demo" names the file, "csv" replaces text in its readings
+case(
+    "measurement-two-fluid-fluid-not-1-or-2",
+    MEAS,
+    {"demo": "qf-pmma-02", "replace": [], "csv": [["1000,2,14.45150", "1000,3,14.45150"]]},
+    "FileFormatError",
+    ["qf-pmma-02_readings.csv, line 6", "fluid = '3'", "valid: 1 or 2"],
+)
+case(
+    "measurement-two-fluid-missing-fluid-rows",
+    MEAS,
+    {"demo": "qf-pmma-02", "replace": [], "csv": [["10000,2,", "20000,2,"]] * 2},
+    "FileFormatError",
+    ["qf-pmma-02_readings.csv", "no row in fluid 2 at 10000 Hz", "fluid = 1 or 2"],
+)
+case(
+    "measurement-two-fluid-name-and-value",
+    MEAS,
+    {"demo": "qf-pmma-02", "replace": [['fluid1 = "air"', 'fluid1 = "air"\neps_fluid1 = 1.0005']]},
+    "FileFormatError",
+    ["case.toml, line", "[method] fluid1 = 'air'", "eps_fluid1 = 1.0005", "exactly one of fluid1"],
+)
+case(
+    "measurement-two-fluid-neither",
+    MEAS,
+    {"demo": "qf-pmma-02", "replace": [['fluid1 = "air"', "#"]]},
+    "FileFormatError",
+    ["case.toml, line", "neither fluid1 nor eps_fluid1", "exactly one"],
+)
+case(
+    "measurement-two-fluid-unknown-material",
+    MEAS,
+    {"demo": "qf-pmma-02", "replace": [['fluid2 = "cyclohexane"', 'fluid2 = "glycerol"']]},
+    "FileFormatError",
+    ["case.toml, line", "fluid2 = 'glycerol'", "valid: ['air', 'benzene'"],
+)
+case(
+    "measurement-micrometer-missing-spacing",
+    MEAS,
+    {"demo": "qf-ps-07", "replace": [], "csv": [[",1.6535,0.6681", ",1.6535,"]]},
+    "FileFormatError",
+    ["qf-ps-07_readings.csv, line 4", "needs a 'empty spacing' reading in every row"],
+)
+case(
+    "measurement-micrometer-spacing-above",
+    MEAS,
+    {"demo": "qf-ps-07", "replace": [], "csv": [[",1.6535,0.6681", ",1.6535,11000"]]},
+    "FileFormatError",
+    ["qf-ps-07_readings.csv, line 4", "empty spacing = 11000 mm", "1 um to 10 m"],
 )
 
 # --------------------------------------------------------------------------- command line
