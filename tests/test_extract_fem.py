@@ -276,6 +276,35 @@ def test_micrometer_touching_electrodes_with_uncertain_thickness_and_spacing():
         assert sens[name] == pytest.approx(ideal[name], rel=0.05)
 
 
+def test_micrometer_film_below_mesh_resolution_moves_eps_as_the_closed_form_says():
+    # the loaded spacing read 1.2 um (0.06 %) above, then 1 um below, the thickness: too
+    # thin a film to mesh, so the method solves the touching cell and adds the film to
+    # first order (extract._through_film). Its effect on eps' must match the closed
+    # form's, eps = t / (t - s1 + s2 C2/C1), exact in the uniform field, to within the
+    # fringing field's share of dC/dL (a few per cent in this d/a = 0.1 cell)
+    eps, t, s2 = 2.3, 2e-3, 0.88e-3
+    loaded = cb.parallel_discs(radius="20 mm", gap=t, specimen=cb.Specimen(t, eps))
+    c1 = cb.solve(loaded, rtol=1e-7).terminal.real
+    c2 = cb.solve(cb.parallel_discs(radius="20 mm", gap=s2), rtol=1e-7).terminal.real
+
+    def run(s1, fem=True):
+        kw = dict(thickness=t, loaded_spacing=s1, empty_spacing=s2, rtol=RTOL, fem=fem)
+        return X.micrometer(loaded, capacitance=c1, empty_capacitance=c2, **kw)[0]
+
+    touching, closed = run(t).eps_r.n, run(t, fem=False).eps_r.n
+    assert touching == pytest.approx(eps, rel=TOL)
+    for film in (1.2e-6, -1e-6):
+        p = run(t + film)
+        shift = p.eps_r.n - touching
+        expected = run(t + film, fem=False).eps_r.n - closed
+        assert abs(expected) > 1e-4 * eps  # a film that matters at the 1e-4 level
+        assert shift == pytest.approx(expected, rel=0.05)
+        # the model's own error is in the budget: FILM_MODEL (rectangular) of the shift
+        row = next(r for r in p.budget.rows if r.name == "air film, first-order model")
+        u_model = X.FILM_MODEL / math.sqrt(3) * abs(shift)
+        assert abs(row.contribution) == pytest.approx(u_model, rel=0.02)
+
+
 @pytest.fixture(scope="module")
 def two_fluid_case():
     eps = complex(2.3, -2.3 * 4e-4)
