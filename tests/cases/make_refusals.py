@@ -893,14 +893,14 @@ case(
 case(
     "measurement-micrometer-missing-spacing",
     MEAS,
-    {"demo": "qf-ps-07", "replace": [], "csv": [[",1.6535,0.6681", ",1.6535,"]]},
+    {"demo": "qf-ps-07", "replace": [], "csv": [[",1.6035,0.6170", ",1.6035,"]]},
     "FileFormatError",
     ["qf-ps-07_readings.csv, line 4", "needs a 'empty spacing' reading in every row"],
 )
 case(
     "measurement-micrometer-spacing-above",
     MEAS,
-    {"demo": "qf-ps-07", "replace": [], "csv": [[",1.6535,0.6681", ",1.6535,11000"]]},
+    {"demo": "qf-ps-07", "replace": [], "csv": [[",1.6035,0.6170", ",1.6035,11000"]]},
     "FileFormatError",
     ["qf-ps-07_readings.csv, line 4", "empty spacing = 11000 mm", "1 um to 10 m"],
 )
