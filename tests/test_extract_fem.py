@@ -240,14 +240,22 @@ def test_micrometer_discs_with_residual_difference():
     assert abs(p.correction) < 0.05
 
 
-def test_micrometer_touching_electrodes_with_uncertain_thickness_and_spacing():
-    # s1 = t read on two micrometers: the thickness cannot be varied alone (a thinner
-    # specimen opens an air film no mesh resolves), so the method varies L = s1 = t and
-    # splits dC/dL by the series model (extract._touching_fd)
+@pytest.fixture(scope="module")
+def touching_cell():
+    """Micrometer electrodes resting on a 2 mm specimen of eps' 2.3 (20 mm radius), read
+    C1; the empty electrodes at s2 = 0.88 mm read C2 (solves at 1e-7, the readings)."""
     eps, t, s2 = 2.3, 2e-3, 0.88e-3
     loaded = cb.parallel_discs(radius="20 mm", gap=t, specimen=cb.Specimen(t, eps))
     c1 = cb.solve(loaded, rtol=1e-7).terminal.real
     c2 = cb.solve(cb.parallel_discs(radius="20 mm", gap=s2), rtol=1e-7).terminal.real
+    return eps, t, s2, loaded, c1, c2
+
+
+def test_micrometer_touching_electrodes_with_uncertain_thickness_and_spacing(touching_cell):
+    # s1 = t read on two micrometers: the thickness cannot be varied alone (a thinner
+    # specimen opens an air film no mesh resolves), so the method varies L = s1 = t and
+    # splits dC/dL by the series model (extract._touching_fd)
+    eps, _t, s2, loaded, c1, c2 = touching_cell
 
     def run(length_mm, fem=True):
         return X.micrometer(
@@ -276,16 +284,15 @@ def test_micrometer_touching_electrodes_with_uncertain_thickness_and_spacing():
         assert sens[name] == pytest.approx(ideal[name], rel=0.05)
 
 
-def test_micrometer_film_below_mesh_resolution_moves_eps_as_the_closed_form_says():
+def test_micrometer_film_below_mesh_resolution_moves_eps_as_the_closed_form_says(
+    touching_cell,
+):
     # the loaded spacing read 1.2 um (0.06 %) above, then 1 um below, the thickness: too
     # thin a film to mesh, so the method solves the touching cell and adds the film to
     # first order (extract._through_film). Its effect on eps' must match the closed
     # form's, eps = t / (t - s1 + s2 C2/C1), exact in the uniform field, to within the
     # fringing field's share of dC/dL (a few per cent in this d/a = 0.1 cell)
-    eps, t, s2 = 2.3, 2e-3, 0.88e-3
-    loaded = cb.parallel_discs(radius="20 mm", gap=t, specimen=cb.Specimen(t, eps))
-    c1 = cb.solve(loaded, rtol=1e-7).terminal.real
-    c2 = cb.solve(cb.parallel_discs(radius="20 mm", gap=s2), rtol=1e-7).terminal.real
+    eps, t, s2, loaded, c1, c2 = touching_cell
 
     def run(s1, fem=True):
         kw = dict(thickness=t, loaded_spacing=s1, empty_spacing=s2, rtol=RTOL, fem=fem)
@@ -306,14 +313,14 @@ def test_micrometer_film_below_mesh_resolution_moves_eps_as_the_closed_form_says
 
 
 @pytest.mark.slow
-def test_micrometer_first_order_film_within_its_stated_error_of_a_meshed_film(monkeypatch):
+def test_micrometer_first_order_film_within_its_stated_error_of_a_meshed_film(
+    touching_cell, monkeypatch
+):
     # a 20 um film (1 % of t) is meshed as it is; the first-order model, forced to take
     # it, must land within the error the budget states for it (FILM_MODEL of the film's
     # effect on eps'); the second method is the meshed film itself
-    eps, t, s2, film = 2.3, 2e-3, 0.88e-3, 20e-6
-    loaded = cb.parallel_discs(radius="20 mm", gap=t, specimen=cb.Specimen(t, eps))
-    c1 = cb.solve(loaded, rtol=1e-7).terminal.real
-    c2 = cb.solve(cb.parallel_discs(radius="20 mm", gap=s2), rtol=1e-7).terminal.real
+    _eps, t, s2, loaded, c1, c2 = touching_cell
+    film = 20e-6
 
     def run(s1):
         kw = dict(thickness=t, loaded_spacing=s1, empty_spacing=s2, rtol=RTOL)
