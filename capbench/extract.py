@@ -1369,12 +1369,10 @@ def _through_film(
     split of :func:`_touching_fd`), so the root solves C(t, t) = target - eps dC/dL film.
     ``eps`` is the root without the film; two passes leave an error of the order of the
     film's share cubed."""
-    fx = fem.fixture(base, _nominal_dims(dims), True)
-    solved = fem.solve(fx, eps, medium, role)
+    nominal = _nominal_dims(dims)
+    fx = fem.fixture(base, nominal, True)
     for _ in range(2):
-        dC, _dS, _dSm = fem.gradient(
-            base, _nominal_dims(dims), "thickness", eps, medium, role, True
-        )
+        dC, _dS, _dSm = fem.gradient(base, nominal, "thickness", eps, medium, role, True)
         eps, solved = _newton(fem, fx, target - eps * dC * film, eps, medium, role)
     return eps, solved
 
@@ -1888,16 +1886,14 @@ def micrometer(
             film_c = target - s_k.C  # the film's share of the reading, first order
         _gain_warning(eps_k, "micrometer")
         roots.append((eps_k, s_k))
-        empties.append((fx_e, se, ldims, edims, dstar - _film_model(film_c), target))
+        empties.append((touching, se, ldims, edims, dstar - _film_model(film_c), target))
     eps_ref = complex(float(np.mean([e.real for e, _ in roots])), 0.0)
     terms = []
     for i in range(n):
-        _fx_e, se, ldims, edims, dstar, target = empties[i]
+        touching, se, ldims, edims, dstar, target = empties[i]
         efd = _fd_sum(solver, fixture, edims, medium, medium, medium, erole, tie=True)
-        if _touching(ldims):
-            lfd = _touching_fd(solver, fixture, ldims, roots[i][0], eps_ref, medium, role)
-        else:
-            lfd = _fd_sum(solver, fixture, ldims, roots[i][0], eps_ref, medium, role)
+        loaded_fd = _touching_fd if touching else _fd_sum
+        lfd = loaded_fd(solver, fixture, ldims, roots[i][0], eps_ref, medium, role)
         terms.append((se, efd, lfd, dstar, target))
     delta = solver.error_input(role)
     delta_e = solver.error_input(erole)

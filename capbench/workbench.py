@@ -88,18 +88,17 @@ def frequency_text(hz: float) -> str:
 def with_uncertainty(x: float, u: float, digits_u: int = 2, power: int | None = None) -> str:
     """ "x ± u" with u rounded to ``digits_u`` significant digits and x to the same
     decimal place (GUM 7.2.6: an uncertainty needs at most two significant digits).
-    ``power`` writes the pair as "(x' ± u')eN" with that N (one N for a whole column)."""
+    ``power`` writes the pair as "(x' ± u')eN" with that N (one N for a whole column);
+    by default a small value (a loss tangent) gets its own, as a column of one would:
+    (2.58 ± 0.26)e-4."""
     if not (math.isfinite(x) and math.isfinite(u)):
         return "-"
     if u <= 0:
         return f"{sig(x, 7)} (exact)"
-    if power is not None and power != 0:
-        inner = with_uncertainty(x / 10.0**power, u / 10.0**power, digits_u)
-        return f"({inner})e{power}"
-    if power is None and 0 < abs(x) < 1e-3 and u < abs(x) * 10:
-        # small values (a loss tangent) share one power of ten: (2.58 ± 0.26)e-4
-        power = math.floor(math.log10(abs(x)))
-        inner = with_uncertainty(x / 10.0**power, u / 10.0**power, digits_u)
+    if power is None:
+        power = _column_power([x]) if u < abs(x) * 10 else 0
+    if power:
+        inner = with_uncertainty(x / 10.0**power, u / 10.0**power, digits_u, power=0)
         return f"({inner})e{power}"
     place = math.floor(math.log10(u)) - (digits_u - 1)
     if round(u / 10.0**place) >= 10**digits_u:  # 0.0996 rounds up a decade
