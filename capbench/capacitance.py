@@ -344,7 +344,7 @@ class _LRU(OrderedDict):
 
 
 _MESHES = _LRU(32)
-_ASSEMBLIES = _LRU(6)
+_ASSEMBLIES = _LRU(8)
 
 
 def base_mesh(
@@ -423,6 +423,7 @@ def solve(
     max_dofs: int = DEFAULT_MAX_DOFS,
     options: mm.MeshOptions = mm.DEFAULT_OPTIONS,
     progress: Callable[[float, str], None] | None = None,
+    solver: str = "direct",
 ) -> Solution:
     """Solve the fixture's field until the terminal capacitance's estimated relative
     error is below ``rtol``.
@@ -438,6 +439,11 @@ def solve(
     max_dofs : int
         Degrees of freedom beyond which a step is not taken (memory guard).
     progress : callable(fraction, message), optional
+    solver : {"direct", "multigrid"}
+        How the refined levels' systems are solved: by sparse factorisation (faster up
+        to about a million unknowns) or by multigrid CG over the levels below (time in
+        proportion to the unknowns, no fill-in memory; see :mod:`capbench.multigrid`).
+        Degree steps on the base mesh are always factorised.
 
     Returns
     -------
@@ -456,6 +462,10 @@ def solve(
             valid=(1e-9, 1e-2),
         )
     time_budget, max_dofs = validate.solver_budget(time_budget, max_dofs)
+    if solver not in fe.SOLVERS:
+        raise SolverError(
+            f"solver = {solver!r}; valid: {', '.join(map(repr, fe.SOLVERS))}", value=solver
+        )
     t_start = time.perf_counter()
     g = fixture.geometry
     names = g.conductor_names
@@ -494,7 +504,12 @@ def solve(
         t0 = time.perf_counter()
         try:
             asm = _assembly(g, rtol, level, degree, options)
-            fs = fe.solve_unit_drives(asm, eps)
+            if level > 0:
+                # the levels below, for multigrid on large systems (see field)
+                coarser = tuple(_assembly(g, rtol, k, degree, options) for k in range(level))
+                fs = fe.solve_unit_drives(asm, eps, coarser=coarser, start=last_fs, solver=solver)
+            else:
+                fs = fe.solve_unit_drives(asm, eps)
         except MemoryError:
             # the machine ran out before max_dofs did: a clear stop, not a crash
             partial = _finish(fixture, names, grounded, rungs, last_fs, t_start) if rungs else None

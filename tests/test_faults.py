@@ -68,11 +68,11 @@ def test_running_out_of_memory_is_a_clear_stop(cell, monkeypatch):
     real = capacitance.fe.solve_unit_drives
     calls = []
 
-    def starved(asm, eps):
+    def starved(asm, eps, **kw):
         calls.append(asm.n_dofs)
         if len(calls) > 1:
             raise MemoryError
-        return real(asm, eps)
+        return real(asm, eps, **kw)
 
     monkeypatch.setattr(capacitance.fe, "solve_unit_drives", starved)
     with pytest.raises(cb.SolverError) as info:
@@ -87,7 +87,7 @@ def test_running_out_of_memory_is_a_clear_stop(cell, monkeypatch):
 
 @pytest.mark.timeout(120)
 def test_running_out_of_memory_on_the_first_step_is_a_clear_stop(cell, monkeypatch):
-    def starved(asm, eps):
+    def starved(asm, eps, **kw):
         raise MemoryError
 
     monkeypatch.setattr(capacitance.fe, "solve_unit_drives", starved)
@@ -125,7 +125,7 @@ def test_the_command_stops_a_solve_over_budget_with_one_line(tmp_path):
 
 @pytest.mark.timeout(120)
 def test_the_command_stops_a_solve_out_of_memory_with_one_line(monkeypatch):
-    def starved(asm, eps):
+    def starved(asm, eps, **kw):
         raise MemoryError
 
     monkeypatch.setattr(capacitance.fe, "solve_unit_drives", starved)
