@@ -173,6 +173,14 @@ def build_parser() -> argparse.ArgumentParser:
         metavar="N",
         help="largest number of unknowns a refinement step may use (default 3000000)",
     )
+    sp.add_argument(
+        "--solver",
+        choices=("direct", "multigrid"),
+        default="direct",
+        help="how refined meshes are solved: sparse factorisation (default; faster up to "
+        "about a million unknowns) or multigrid CG (time in proportion to the unknowns, "
+        "less memory)",
+    )
 
     sp = sub.add_parser(
         "extract",
@@ -341,7 +349,9 @@ def _cmd_solve(args, out: _Out) -> int:
     if args.max_dofs is not None:
         budgets["max_dofs"] = args.max_dofs
     try:
-        sol = solve(fx, rtol=args.rtol, progress=out.solve_progress(), **budgets)
+        sol = solve(
+            fx, rtol=args.rtol, progress=out.solve_progress(), solver=args.solver, **budgets
+        )
     except SolverError as exc:
         raise SolverError(
             f"{exc} (command-line options: --rtol, --time-budget, --max-dofs)", **exc.details
