@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import math
 import time
+import warnings
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -44,6 +45,7 @@ from .mesh import (
     _edge_keys,
 )
 from .units import EPS0
+from .validate import CapbenchWarning
 
 MAX_DEGREE = 8
 
@@ -690,9 +692,13 @@ def solve_unit_drives(
     A = system.A
     t1 = time.perf_counter()
     info: dict = {"solver": "direct"}
+    x = None
     if solver == "multigrid" and coarser and not np.iscomplexobj(A):
-        x, info = _multigrid_solve(asm, system, coarser, eps_by_region, start)
-    else:
+        try:
+            x, info = _multigrid_solve(asm, system, coarser, eps_by_region, start)
+        except SolverError as exc:
+            warnings.warn(f"{exc}; factorising instead", CapbenchWarning, stacklevel=2)
+    if x is None:
         x = _solve(A.tocsc(), system.rhs)
     t2 = time.perf_counter()
     U = system.S @ x + system.G
@@ -799,23 +805,27 @@ def prolongation(coarse: Assembly, fine: Assembly) -> sp.csr_matrix:
         # interior values R_e u_s: w += R_parent^T phi_interior, as one sparse product
         # (gathering each node's R_parent would copy ni x ns numbers per node)
         ni = ref.n_interior
-        n = X.shape[1]
-        Phi = sp.csr_matrix(
-            (
-                phi[ns:].T.ravel(),
-                (np.repeat(np.arange(n), ni), (parent[:, None] * ni + np.arange(ni)).ravel()),
-            ),
-            shape=(n, nc * ni),
-        )
+        Phi = _rows_of(phi[ns:].T, parent[:, None] * ni + np.arange(ni), nc * ni)
         w = w + (Phi @ coarse.recovery.reshape(nc * ni, ns)).T
     w[np.abs(w) < 1e-13] = 0.0
     cols = coarse.dofs.element_dofs[:ns, parent]
-    rows = np.broadcast_to(np.arange(fine.n_skeleton), cols.shape)
-    P = sp.csr_matrix(
-        (w.ravel(), (rows.ravel(), cols.ravel())), shape=(fine.n_skeleton, coarse.n_skeleton)
-    )
+    P = _rows_of(w.T, cols.T, coarse.n_skeleton)
     P.eliminate_zeros()
     return P
+
+
+def _rows_of(values: np.ndarray, columns: np.ndarray, n_columns: int) -> sp.csr_matrix:
+    """A CSR matrix whose row i holds values[i] in columns[i] (the same count in every
+    row, columns distinct within a row): built directly, without a sort."""
+    n, k = values.shape
+    return sp.csr_matrix(
+        (
+            np.ascontiguousarray(values).ravel(),
+            np.ascontiguousarray(columns).ravel(),
+            np.arange(0, n * k + 1, k),
+        ),
+        shape=(n, n_columns),
+    )
 
 
 def _reduced_prolongation(P, coarse_system, fine_system) -> sp.csr_matrix:

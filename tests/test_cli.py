@@ -66,6 +66,14 @@ def test_solve_json_matches_the_library():
     assert -m[0][1] == pytest.approx(data["capacitance"]["value"], rel=1e-12)
 
 
+def test_solve_takes_the_solver_choice():
+    # degree steps on the base mesh are factorised whatever the choice, so the command
+    # with --solver multigrid must give the library's default result to the digit
+    data = run_json("solve", CELL, "--rtol", "1e-5", "--solver", "multigrid")
+    sol = cb.solve(files.read_fixture(CELL), rtol=1e-5)
+    assert data["capacitance"]["value"] == pytest.approx(sol.capacitance.magnitude, rel=1e-12)
+
+
 def test_solve_thin_discs_against_kirchhoff(tmp_path):
     # two thin coaxial discs, a = 25 mm, d = 0.5 mm (d/a = 0.02): G. Kirchhoff (1877),
     # C = eps0 pi a^2/d + eps0 a [ln(16 pi a/d) - 1], good to about 1e-4 at d/a = 0.02
@@ -278,6 +286,7 @@ def test_bad_measurement_exits_1(tmp_path):
         (["extract", "x.toml", "--colour"], "unrecognized arguments: --colour"),
         (["compare", "x.toml"], "--measured"),
         (["frobnicate"], "invalid choice"),
+        (["solve", "x.toml", "--solver", "amg"], "invalid choice: 'amg'"),
         (["log"], "required: action"),
     ],
 )

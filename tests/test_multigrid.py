@@ -18,6 +18,7 @@ import capbench as cb
 from capbench import capacitance as cc
 from capbench import field as fe
 from capbench import mesh as mm
+from capbench import multigrid
 
 
 def _levels(fx, degree, top, rtol=1e-6):
@@ -133,6 +134,18 @@ def test_the_ladder_gives_the_same_capacitance_with_either_solver():
     assert mg.rungs[-1].level >= 1
     assert mg.field.seconds["solver"] == "multigrid"
     assert abs(mg.terminal - direct.terminal) / abs(direct.terminal) < 1e-11
+
+
+def test_cg_that_does_not_converge_falls_back_to_the_factorisation(monkeypatch):
+    fx = cb.parallel_discs(radius="25 mm", gap="2.5 mm")
+    levels = _levels(fx, 2, 1)
+    eps = cc.eps_by_region(fx.geometry)
+    monkeypatch.setattr(multigrid, "MAX_ITERATIONS", 1)
+    with pytest.warns(cb.CapbenchWarning, match="did not reach a relative residual"):
+        fs = fe.solve_unit_drives(levels[1], eps, coarser=(levels[0],), solver="multigrid")
+    assert fs.seconds["solver"] == "direct"
+    direct = fe.solve_unit_drives(levels[1], eps)
+    np.testing.assert_allclose(fs.maxwell_energy, direct.maxwell_energy, rtol=1e-13)
 
 
 def test_an_unknown_solver_is_refused_with_the_valid_choices():
