@@ -423,7 +423,7 @@ def solve(
     max_dofs: int = DEFAULT_MAX_DOFS,
     options: mm.MeshOptions = mm.DEFAULT_OPTIONS,
     progress: Callable[[float, str], None] | None = None,
-    solver: str = "direct",
+    solver: str = "auto",
 ) -> Solution:
     """Solve the fixture's field until the terminal capacitance's estimated relative
     error is below ``rtol``.
@@ -439,11 +439,12 @@ def solve(
     max_dofs : int
         Degrees of freedom beyond which a step is not taken (memory guard).
     progress : callable(fraction, message), optional
-    solver : {"direct", "multigrid"}
-        How the refined levels' systems are solved: by sparse factorisation (faster up
-        to about a million unknowns) or by multigrid CG over the levels below (time in
-        proportion to the unknowns, no fill-in memory; see :mod:`capbench.multigrid`).
-        Degree steps on the base mesh are always factorised.
+    solver : {"auto", "direct", "multigrid"}
+        How the refined levels' systems are solved: by sparse factorisation, or by
+        multigrid CG over the levels below (time nearly in proportion to the unknowns,
+        less memory; see :mod:`capbench.multigrid`). "auto" takes multigrid from
+        ``capbench.field.MULTIGRID_FROM`` (2 million) unknowns, where it was measured
+        faster. Degree steps on the base mesh are always factorised.
 
     Returns
     -------

@@ -175,11 +175,11 @@ def build_parser() -> argparse.ArgumentParser:
     )
     sp.add_argument(
         "--solver",
-        choices=("direct", "multigrid"),
-        default="direct",
-        help="how refined meshes are solved: sparse factorisation (default; faster up to "
-        "about a million unknowns) or multigrid CG (time in proportion to the unknowns, "
-        "less memory)",
+        choices=("auto", "direct", "multigrid"),
+        default="auto",
+        help="how refined meshes are solved: sparse factorisation, multigrid CG (time in "
+        "proportion to the unknowns, less memory), or auto (default: multigrid from 2 "
+        "million unknowns, where it is faster)",
     )
 
     sp = sub.add_parser(

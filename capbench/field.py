@@ -663,7 +663,13 @@ def reduced_system(asm: Assembly, eps_by_region: dict[int, complex]) -> System:
     return System(K, A, np.asarray(rhs), S, G)
 
 
-SOLVERS = ("direct", "multigrid")
+SOLVERS = ("auto", "direct", "multigrid")
+
+#: unknowns (interiors included) from which "auto" solves a refined level by multigrid:
+#: the measured crossover (benchmarks/accuracy_speed.py --scaling-only, thin discs at
+#: 2.8M unknowns: 55 s against 58 s at degree 4, 55 s against 60 s at degree 8, and
+#: 4.3 GiB against 5.8 GiB at degree 4; below about 2M the factorisation is faster)
+MULTIGRID_FROM = 2_000_000
 
 
 def solve_unit_drives(
@@ -671,7 +677,7 @@ def solve_unit_drives(
     eps_by_region: dict[int, complex],
     coarser: tuple[Assembly, ...] = (),
     start: FieldSolution | None = None,
-    solver: str = "direct",
+    solver: str = "auto",
 ) -> FieldSolution:
     """One solve per conductor held at 1 V (all others at 0 V).
 
@@ -680,10 +686,11 @@ def solve_unit_drives(
     levels (coarsest first, the same degree; :mod:`capbench.multigrid`), for a real
     system on a refined mesh; a lossy (complex) system, or one without coarser levels, is
     factorised. ``start``, a solution on the level just below, is prolonged to start CG.
+    ``solver="auto"``: multigrid from MULTIGRID_FROM unknowns, else the factorisation.
     Measured (``python benchmarks/accuracy_speed.py --scaling-only``, thin discs): the
-    factorisation is faster up to about two million unknowns (1.2 to 1.7 times at 175k to
-    700k); beyond, multigrid, whose time grows nearly in proportion to the unknowns, is
-    ahead (2.8M unknowns: 55 s against 60 s at degree 8, with assembly).
+    factorisation is faster below about two million unknowns (1.2 to 1.7 times at 175k to
+    700k); beyond, multigrid's time grows as N^1.05 against the factorisation's N^1.47,
+    and it needs less memory.
     """
     if solver not in SOLVERS:
         raise SolverError(f"solver = {solver!r}; valid: {', '.join(SOLVERS)}", value=solver)
@@ -693,7 +700,8 @@ def solve_unit_drives(
     t1 = time.perf_counter()
     info: dict = {"solver": "direct"}
     x = None
-    if solver == "multigrid" and coarser and not np.iscomplexobj(A):
+    multigrid_wanted = solver == "multigrid" or (solver == "auto" and asm.n_dofs >= MULTIGRID_FROM)
+    if multigrid_wanted and coarser and not np.iscomplexobj(A):
         try:
             x, info = _multigrid_solve(asm, system, coarser, eps_by_region, start)
         except SolverError as exc:

@@ -136,6 +136,21 @@ def test_the_ladder_gives_the_same_capacitance_with_either_solver():
     assert abs(mg.terminal - direct.terminal) / abs(direct.terminal) < 1e-11
 
 
+def test_auto_takes_multigrid_from_the_measured_crossover(monkeypatch):
+    fx = cb.parallel_discs(radius="25 mm", gap="2.5 mm")
+    levels = _levels(fx, 2, 1)
+    eps = cc.eps_by_region(fx.geometry)
+    below = fe.solve_unit_drives(levels[1], eps, coarser=(levels[0],))
+    assert levels[1].n_dofs < fe.MULTIGRID_FROM and below.seconds["solver"] == "direct"
+    monkeypatch.setattr(fe, "MULTIGRID_FROM", levels[1].n_dofs)
+    at = fe.solve_unit_drives(levels[1], eps, coarser=(levels[0],))
+    assert at.seconds["solver"] == "multigrid"
+    # without the levels below there is nothing to cycle over: factorised
+    alone = fe.solve_unit_drives(levels[1], eps)
+    assert alone.seconds["solver"] == "direct"
+    np.testing.assert_allclose(at.maxwell_energy, below.maxwell_energy, rtol=1e-12)
+
+
 def test_cg_that_does_not_converge_falls_back_to_the_factorisation(monkeypatch):
     fx = cb.parallel_discs(radius="25 mm", gap="2.5 mm")
     levels = _levels(fx, 2, 1)
@@ -150,5 +165,7 @@ def test_cg_that_does_not_converge_falls_back_to_the_factorisation(monkeypatch):
 
 def test_an_unknown_solver_is_refused_with_the_valid_choices():
     fx = cb.parallel_discs(radius="25 mm", gap="2.5 mm")
-    with pytest.raises(cb.SolverError, match=r"solver = 'amg'; valid: 'direct', 'multigrid'"):
+    with pytest.raises(
+        cb.SolverError, match=r"solver = 'amg'; valid: 'auto', 'direct', 'multigrid'"
+    ):
         cb.solve(fx, rtol=1e-4, solver="amg")
