@@ -59,6 +59,7 @@ class Rung:
     terminal: complex
     seconds: float
     rel_error: float = math.inf
+    solver: str = "direct"  # "direct" or "multigrid" (see field.solve_unit_drives)
 
 
 @dataclass(frozen=True)
@@ -526,7 +527,16 @@ def solve(
         Ct = terminal_capacitance(
             fs.maxwell_energy, names, fixture.high, fixture.low, fixture.connection, grounded
         )
-        rungs.append(Rung(level, degree, asm.n_dofs, Ct, time.perf_counter() - t0))
+        rungs.append(
+            Rung(
+                level,
+                degree,
+                asm.n_dofs,
+                Ct,
+                time.perf_counter() - t0,
+                solver=fs.seconds.get("solver", "direct"),
+            )
+        )
         rungs[-1] = replace(rungs[-1], rel_error=_estimate(rungs))
         last_fs = fs
         if rungs[-1].rel_error <= rtol:

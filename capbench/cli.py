@@ -373,6 +373,7 @@ def _cmd_solve(args, out: _Out) -> int:
                 },
                 "n_dofs": sol.n_dofs,
                 "seconds": sol.seconds,
+                "solver": sol.rungs[-1].solver,
             }
         )
         return EXIT_OK
@@ -384,7 +385,8 @@ def _cmd_solve(args, out: _Out) -> int:
     )
     if sol.dissipation_factor:
         out.line(f"  dissipation factor  {sol.dissipation_factor:.6g}")
-    out.line(f"  {sol.n_dofs:,} unknowns, {sol.seconds:.2f} s")
+    how = " (last step by multigrid)" if sol.rungs[-1].solver == "multigrid" else ""
+    out.line(f"  {sol.n_dofs:,} unknowns, {sol.seconds:.2f} s{how}")
     names = sol.terminals
     m = sol.matrix.to(unit).magnitude.real
     out.line(f"  Maxwell matrix ({unit}):")

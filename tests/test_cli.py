@@ -72,6 +72,7 @@ def test_solve_takes_the_solver_choice():
     data = run_json("solve", CELL, "--rtol", "1e-5", "--solver", "multigrid")
     sol = cb.solve(files.read_fixture(CELL), rtol=1e-5)
     assert data["capacitance"]["value"] == pytest.approx(sol.capacitance.magnitude, rel=1e-12)
+    assert data["solver"] == "direct"
 
 
 def test_solve_thin_discs_against_kirchhoff(tmp_path):

@@ -132,7 +132,8 @@ def test_the_ladder_gives_the_same_capacitance_with_either_solver():
     direct = cb.solve(fx, rtol=1e-8)
     mg = cb.solve(fx, rtol=1e-8, solver="multigrid")
     assert mg.rungs[-1].level >= 1
-    assert mg.field.seconds["solver"] == "multigrid"
+    assert mg.field.seconds["solver"] == mg.rungs[-1].solver == "multigrid"
+    assert direct.rungs[-1].solver == "direct"
     assert abs(mg.terminal - direct.terminal) / abs(direct.terminal) < 1e-11
 
 
