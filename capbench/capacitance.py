@@ -345,7 +345,7 @@ class _LRU(OrderedDict):
 
 
 _MESHES = _LRU(32)
-_ASSEMBLIES = _LRU(8)
+_ASSEMBLIES = _LRU(6)
 
 
 def base_mesh(
@@ -506,8 +506,8 @@ def solve(
         t0 = time.perf_counter()
         try:
             asm = _assembly(g, rtol, level, degree, options)
-            if level > 0:
-                # the levels below, for multigrid on large systems (see field)
+            if level > 0 and fe.multigrid_wanted(asm, solver):
+                # the levels below, to cycle over (the ladder assembled them already)
                 coarser = tuple(_assembly(g, rtol, k, degree, options) for k in range(level))
                 fs = fe.solve_unit_drives(asm, eps, coarser=coarser, start=last_fs, solver=solver)
             else:

@@ -672,6 +672,11 @@ SOLVERS = ("auto", "direct", "multigrid")
 MULTIGRID_FROM = 2_000_000
 
 
+def multigrid_wanted(asm: Assembly, solver: str) -> bool:
+    """Whether ``solver`` asks for multigrid on this assembly (given coarser levels)."""
+    return solver == "multigrid" or (solver == "auto" and asm.n_dofs >= MULTIGRID_FROM)
+
+
 def solve_unit_drives(
     asm: Assembly,
     eps_by_region: dict[int, complex],
@@ -700,8 +705,7 @@ def solve_unit_drives(
     t1 = time.perf_counter()
     info: dict = {"solver": "direct"}
     x = None
-    multigrid_wanted = solver == "multigrid" or (solver == "auto" and asm.n_dofs >= MULTIGRID_FROM)
-    if multigrid_wanted and coarser and not np.iscomplexobj(A):
+    if multigrid_wanted(asm, solver) and coarser and not np.iscomplexobj(A):
         try:
             x, info = _multigrid_solve(asm, system, coarser, eps_by_region, start)
         except SolverError as exc:
