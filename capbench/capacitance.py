@@ -464,10 +464,7 @@ def solve(
             valid=(1e-9, 1e-2),
         )
     time_budget, max_dofs = validate.solver_budget(time_budget, max_dofs)
-    if solver not in fe.SOLVERS:
-        raise SolverError(
-            f"solver = {solver!r}; valid: {', '.join(map(repr, fe.SOLVERS))}", value=solver
-        )
+    validate.solver(solver)
     t_start = time.perf_counter()
     g = fixture.geometry
     names = g.conductor_names
@@ -506,12 +503,11 @@ def solve(
         t0 = time.perf_counter()
         try:
             asm = _assembly(g, rtol, level, degree, options)
+            coarser = ()
             if level > 0 and fe.multigrid_wanted(asm, solver):
                 # the levels below, to cycle over (the ladder assembled them already)
                 coarser = tuple(_assembly(g, rtol, k, degree, options) for k in range(level))
-                fs = fe.solve_unit_drives(asm, eps, coarser=coarser, start=last_fs, solver=solver)
-            else:
-                fs = fe.solve_unit_drives(asm, eps)
+            fs = fe.solve_unit_drives(asm, eps, coarser=coarser, start=last_fs, solver=solver)
         except MemoryError:
             # the machine ran out before max_dofs did: a clear stop, not a crash
             partial = _finish(fixture, names, grounded, rungs, last_fs, t_start) if rungs else None

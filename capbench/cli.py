@@ -114,6 +114,8 @@ def _workers(text: str) -> int:
 
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser of the ``capbench`` command."""
+    from .validate import SOLVERS
+
     p = _Parser(
         prog="capbench",
         description=(
@@ -175,7 +177,7 @@ def build_parser() -> argparse.ArgumentParser:
     )
     sp.add_argument(
         "--solver",
-        choices=("auto", "direct", "multigrid"),
+        choices=SOLVERS,
         default="auto",
         help="how refined meshes are solved: sparse factorisation, multigrid CG (time in "
         "proportion to the unknowns, less memory), or auto (default: multigrid from 2 "

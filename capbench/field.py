@@ -33,7 +33,7 @@ from skfem.element import ElementH1
 from skfem.quadrature import get_quadrature
 from skfem.refdom import RefTri
 
-from . import multigrid
+from . import multigrid, validate
 from .errors import SolverError
 from .mesh import (
     GROUND_TAG,
@@ -622,15 +622,15 @@ class System:
     unknowns, and the far boundary tied into one floating unknown where it floats)."""
 
     K: sp.csr_matrix
-    A: sp.csr_matrix
+    A: sp.spmatrix
     rhs: np.ndarray
     S: sp.csr_matrix
     G: np.ndarray
+    counts: np.ndarray  # skeleton unknowns behind each reduced one (> 1: the tied one)
 
     def reduce(self, U: np.ndarray) -> np.ndarray:
         """x with S x = U on the free unknowns (the tied unknown: the boundary's mean)."""
-        counts = np.asarray(self.S.sum(axis=0)).ravel()
-        return (self.S.T @ U) / counts[:, None]
+        return (self.S.T @ U) / self.counts[:, None]
 
 
 def reduced_system(asm: Assembly, eps_by_region: dict[int, complex]) -> System:
@@ -655,15 +655,15 @@ def reduced_system(asm: Assembly, eps_by_region: dict[int, complex]) -> System:
     for k, d in enumerate(asm.conductor_dofs):
         G[d, k] = 1.0
     if asm.infinity_dofs.size:  # tie the far boundary into one floating unknown
-        A = (S.T @ K @ S).tocsr()
+        A = S.T @ K @ S
         rhs = -(S.T @ (K @ G))
     else:
-        A = K[free_idx][:, free_idx].tocsr()
+        A = K[free_idx][:, free_idx]
         rhs = -(K @ G)[free_idx]
-    return System(K, A, np.asarray(rhs), S, G)
+    counts = np.ones(n_u)
+    counts[free_idx.size :] = asm.infinity_dofs.size
+    return System(K, A, np.asarray(rhs), S, G, counts)
 
-
-SOLVERS = ("auto", "direct", "multigrid")
 
 #: unknowns (interiors included) from which "auto" solves a refined level by multigrid:
 #: the measured crossover (benchmarks/accuracy_speed.py --scaling-only, thin discs at
@@ -697,8 +697,7 @@ def solve_unit_drives(
     700k); beyond, multigrid's time grows as N^1.05 against the factorisation's N^1.47,
     and it needs less memory.
     """
-    if solver not in SOLVERS:
-        raise SolverError(f"solver = {solver!r}; valid: {', '.join(SOLVERS)}", value=solver)
+    validate.solver(solver)
     t0 = time.perf_counter()
     system = reduced_system(asm, eps_by_region)
     A = system.A
@@ -843,8 +842,7 @@ def _rows_of(values: np.ndarray, columns: np.ndarray, n_columns: int) -> sp.csr_
 def _reduced_prolongation(P, coarse_system, fine_system) -> sp.csr_matrix:
     """The prolongation between the reduced unknowns: x_f = S_f^+ P S_c x_c."""
     P = P @ coarse_system.S
-    counts = np.asarray(fine_system.S.sum(axis=0)).ravel()
-    return (sp.diags(1.0 / counts) @ (fine_system.S.T @ P)).tocsr()
+    return (sp.diags(1.0 / fine_system.counts) @ (fine_system.S.T @ P)).tocsr()
 
 
 def _reduced_index(system: System) -> np.ndarray:
@@ -852,8 +850,7 @@ def _reduced_index(system: System) -> np.ndarray:
     S = system.S.tocoo()
     index = np.full(S.shape[0], -1, np.int64)
     index[S.row] = S.col
-    tied = np.asarray(system.S.sum(axis=0)).ravel() > 1
-    index[np.isin(index, np.nonzero(tied)[0])] = -1
+    index[system.counts[np.maximum(index, 0)] > 1] = -1
     return index
 
 

@@ -40,7 +40,7 @@ import math
 import warnings
 from typing import Any
 
-from .errors import InputError
+from .errors import InputError, SolverError
 from .units import to_si
 
 LIMITS: dict[str, tuple[float, float, str]] = {
@@ -205,6 +205,19 @@ def solver_budget(time_budget: Any, max_dofs: Any) -> tuple[float, int]:
             valid=LIMITS["dofs"][:2],
         )
     return t, int(n)
+
+
+#: how a solve's refined levels may be solved (see capbench.field.solve_unit_drives)
+SOLVERS = ("auto", "direct", "multigrid")
+
+
+def solver(value: Any) -> str:
+    """A solver choice, one of SOLVERS."""
+    if value not in SOLVERS:
+        raise SolverError(
+            f"solver = {value!r}; valid: {', '.join(map(repr, SOLVERS))}", value=value
+        )
+    return value
 
 
 def quasi_static(frequency: float, size: float, eps_r: float = 1.0, where: str = "") -> bool:
