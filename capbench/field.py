@@ -756,8 +756,8 @@ def _multigrid_solve(asm, system, coarser, eps_by_region, start):
     if start is not None and start.assembly is chain[-2]:
         U_prev = start.potentials[: chain[-2].n_skeleton]
         x0 = levels[0].P @ systems[-2].reduce(U_prev)
-    x, info = multigrid.solve(levels, systems[-1].rhs, x0)
-    return x, {"iterations": info["iterations"], "solver": "multigrid"}
+    x, iterations = multigrid.solve(levels, systems[-1].rhs, x0)
+    return x, {"iterations": iterations, "solver": "multigrid"}
 
 
 def skeleton_nodes(asm: Assembly) -> tuple[np.ndarray, np.ndarray]:
