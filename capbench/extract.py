@@ -97,6 +97,12 @@ from .validate import CapbenchWarning
 
 #: the range a permittivity root must lie in
 EPS_MIN, EPS_MAX = 1.0, 1e4
+
+
+def _in_eps_range(eps: float) -> bool:
+    """eps within 1 to 1e4, allowing the last digits a closed form rounds away (a true
+    eps_r of exactly 1e4 computed back as 10000.000000000002 is still at the limit)."""
+    return math.isfinite(eps) and EPS_MIN * (1 - 1e-12) <= eps <= EPS_MAX * (1 + 1e-12)
 #: relative step of the central differences with respect to dimensions
 FD_STEP = 2e-3
 #: micrometer method: an air film between the loaded electrode and the specimen (s1 - t)
@@ -286,7 +292,7 @@ def _closed_result(eps: Any, label: str) -> Any:
     """A closed form's eps_r, refused outside the valid range 1 to 1e4 (a plausible but
     wrong number from readings or dimensions in the wrong unit)."""
     e = _n(eps)
-    if not (math.isfinite(e) and EPS_MIN <= e <= EPS_MAX):
+    if not _in_eps_range(e):
         raise ExtractionError(
             f"the {label} readings give eps_r = {_shown(e)}, outside the valid range "
             f"{EPS_MIN:g} to {EPS_MAX:g}: check the readings' units and order, the thickness "
@@ -529,7 +535,7 @@ def _check_two_fluid_result(eps: float, x: float) -> None:
             "with specimen, fluid 2, fluid 2 with specimen)",
             fraction=x,
         )
-    if not (math.isfinite(eps) and EPS_MIN <= eps <= EPS_MAX):
+    if not _in_eps_range(eps):
         raise ExtractionError(
             f"the four readings imply eps_r = {_shown(eps)}, outside the valid range "
             f"{EPS_MIN:g} to {EPS_MAX:g}",
