@@ -8,6 +8,7 @@ import pytest
 
 import capbench as cb
 from capbench import capacitance as cc
+from capbench.field import SHELL_REGION
 
 RIGS = {
     "parallel-discs": lambda: cb.parallel_discs(radius="25 mm", gap="2.5 mm"),
@@ -89,8 +90,12 @@ def test_mesh_is_conforming_and_tagged(name):
     # electrode tangentially and the air wedge between them has zero angle.
     ang = _angles(p, t)
     assert ang.max() < 170.0
+    # The far-field shell's halving tail layers are thin in the drawn coordinates by design
+    # (mapped toward infinity, each is as thick relative to its distance as the one before),
+    # so the small-angle check applies to the drawn fixture only (capbench's own margin).
+    drawn = mesh.region != SHELL_REGION
     if name != "discs-thick-rounded-specimen":
-        assert ang.min() > 5.0
+        assert ang[:, drawn].min() > 5.0
 
 
 def _angles(p, t):
