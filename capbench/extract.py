@@ -103,6 +103,8 @@ def _in_eps_range(eps: float) -> bool:
     """eps within 1 to 1e4, allowing the last digits a closed form rounds away (a true
     eps_r of exactly 1e4 computed back as 10000.000000000002 is still at the limit)."""
     return math.isfinite(eps) and EPS_MIN * (1 - 1e-12) <= eps <= EPS_MAX * (1 + 1e-12)
+
+
 #: relative step of the central differences with respect to dimensions
 FD_STEP = 2e-3
 #: micrometer method: an air film between the loaded electrode and the specimen (s1 - t)
