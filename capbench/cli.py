@@ -126,7 +126,7 @@ def build_parser() -> argparse.ArgumentParser:
         epilog=_EPILOG,
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
-    from . import __version__
+    from ._version import __version__
 
     p.add_argument("--version", action="version", version=f"capbench {__version__}")
     sub = p.add_subparsers(dest="command", metavar="command", parser_class=_Parser)

@@ -568,7 +568,7 @@ def build(
     InputError
         When nothing to report is given, or an argument has the wrong type.
     """
-    from . import __version__
+    from ._version import __version__
     from .capacitance import Solution
     from .extract import Extraction
 
