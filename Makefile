@@ -4,7 +4,7 @@ VENV := .venv
 BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed
 
-.PHONY: run test quick fuzz bench lint install clean browser
+.PHONY: run test quick fuzz bench bench-peer lint install clean browser
 
 $(STAMP): pyproject.toml
 	test -d $(VENV) || $(PY) -m venv $(VENV)
@@ -52,6 +52,14 @@ fuzz: install
 
 bench: install
 	$(BIN)/python benchmarks/accuracy_speed.py
+
+# capbench beside a general-purpose hp finite-element library (NGSolve) on the same
+# fixtures. The peer lives in its own environment and is never a capbench dependency.
+PEER := .venv-peer
+bench-peer: install
+	test -d $(PEER) || $(PY) -m venv $(PEER)
+	$(PEER)/bin/python -m pip install --quiet ngsolve numpy
+	OMP_NUM_THREADS=1 $(BIN)/python benchmarks/peer.py
 
 lint: install
 	$(BIN)/ruff check capbench tests benchmarks examples app.py bench_pages
