@@ -14,8 +14,8 @@ What an expert would do with a general-purpose hp finite-element library:
 * open space by an exact Kelvin inversion: the exterior of the sphere of radius R is
   mapped to a second half disc x' = R^2 x / |x|^2 with v(x') = (|x| / R) u(x), glued to the
   first along the arc by a periodic identification. The exterior energy becomes
-  int |grad v|^2 dV' + (1 / R) int_{|x|=R} v^2 dS (checked here on u = R / |x| and on the
-  dipole R^2 cos(theta) / |x|^2, both exactly);
+  int |grad v|^2 dV' + (1 / R) int_{|x|=R} v^2 dS (it holds exactly for u = R / |x| and for the
+  dipole R^2 cos(theta) / |x|^2, worked by hand);
 * its own error check: the difference between successive degrees, stopping at the first
   degree whose difference is below the target (so both sides certify what they report).
 """
