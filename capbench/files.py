@@ -41,6 +41,7 @@ import io
 import math
 import os
 import re
+import stat
 import tempfile
 import tomllib
 from collections.abc import Mapping
@@ -48,7 +49,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from .errors import CapbenchError, FileFormatError
+from .errors import CapbenchError, FileFormatError, InputError
 from .geometry import (
     CONNECTIONS,
     MEDIUM,
@@ -951,13 +952,64 @@ def read_fixture(path: str | os.PathLike) -> Fixture:
     return fixture_from_toml(text, source=path.name)
 
 
-def _atomic_write(path: Path, text: str) -> None:
+def _umask() -> int:
+    """The process's umask, read without changing it where the system shows it."""
+    try:
+        with open("/proc/self/status", encoding="ascii") as fh:
+            for line in fh:
+                if line.startswith("Umask:"):
+                    return int(line.split()[1], 8)
+    except (OSError, ValueError):
+        pass
+    mask = os.umask(0o022)  # elsewhere: set and restore (not thread-safe, so last resort)
+    os.umask(mask)
+    return mask
+
+
+def _atomic_write(path: Path, data: str | bytes) -> None:
+    """The one way capbench writes a file: only a regular file (or nothing) at ``path``
+    is replaced, through a temporary file beside it, so a crash leaves the old file or
+    the new one, never half of one.
+
+    A symbolic link, FIFO, device or directory at ``path`` is refused, not written over
+    (the user named a path, not what it points at; writing through a link could reach
+    anywhere). A new file's mode follows the umask as any program's would; an existing
+    file keeps its mode.
+    """
+    path = Path(path)
+    try:
+        st = os.lstat(path)
+    except FileNotFoundError:
+        st = None
+    except OSError as exc:
+        raise InputError(f"cannot write {path}: {exc.strerror}", value=str(path)) from None
+    if st is not None and not stat.S_ISREG(st.st_mode):
+        what = (
+            "a symbolic link"
+            if stat.S_ISLNK(st.st_mode)
+            else "a directory"
+            if stat.S_ISDIR(st.st_mode)
+            else "a FIFO"
+            if stat.S_ISFIFO(st.st_mode)
+            else "a device or socket"
+        )
+        raise InputError(
+            f"will not write {path}: it is {what}, not a regular file; remove it or give "
+            "another path (capbench writes only regular files)",
+            value=str(path),
+        )
+    mode = stat.S_IMODE(st.st_mode) if st is not None else 0o666 & ~_umask()
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
     try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
-            fh.write(text)
+        if isinstance(data, str):
+            fh = os.fdopen(fd, "w", encoding="utf-8", newline="\n")
+        else:
+            fh = os.fdopen(fd, "wb")
+        with fh:
+            fh.write(data)
             fh.flush()
+            os.fchmod(fh.fileno(), mode)
             os.fsync(fh.fileno())
         os.replace(tmp, path)
     except BaseException:

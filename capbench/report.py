@@ -402,10 +402,7 @@ class Report:
             elif fmt == "json":
                 _atomic_write(path, self.json(figures=True))
             elif fmt == "pdf":
-                path.parent.mkdir(parents=True, exist_ok=True)
-                tmp = path.with_name(f".{path.name}.part")
-                tmp.write_bytes(self.pdf())
-                tmp.replace(path)
+                _atomic_write(path, self.pdf())
             else:
                 raise InputError(f"report format {fmt!r}; valid: html, pdf, json", value=fmt)
             out.append(str(path))

@@ -1,0 +1,69 @@
+"""Output goes only where the user asked, as a regular file with the umask's mode
+(issue 15: an export written over a symbolic link, FIFO or device replaced it, and every
+file was created mode 0600 whatever the umask)."""
+
+from __future__ import annotations
+
+import os
+import stat
+
+import pytest
+
+import capbench as cb
+from capbench import files
+from capbench.errors import InputError
+
+
+def _fixture():
+    return cb.parallel_discs(radius="12 mm", gap="1.5 mm")
+
+
+def test_a_symbolic_link_at_the_target_is_refused_and_its_target_kept(tmp_path):
+    victim = tmp_path / "victim.txt"
+    victim.write_text("keep me")
+    link = tmp_path / "out.toml"
+    link.symlink_to(victim)
+    with pytest.raises(InputError, match="symbolic link"):
+        files.write_fixture(_fixture(), link)
+    assert victim.read_text() == "keep me"
+    assert link.is_symlink()
+
+
+def test_a_fifo_at_the_target_is_refused_without_blocking(tmp_path):
+    fifo = tmp_path / "out.toml"
+    os.mkfifo(fifo)
+    with pytest.raises(InputError, match="FIFO"):
+        files.write_fixture(_fixture(), fifo)
+    assert stat.S_ISFIFO(os.lstat(fifo).st_mode)
+
+
+def test_a_directory_at_the_target_is_refused(tmp_path):
+    (tmp_path / "out.toml").mkdir()
+    with pytest.raises(InputError, match="directory"):
+        files.write_fixture(_fixture(), tmp_path / "out.toml")
+
+
+@pytest.mark.parametrize("mask", [0o022, 0o027, 0o077])
+def test_a_new_file_follows_the_umask(tmp_path, mask):
+    old = os.umask(mask)
+    try:
+        path = files.write_fixture(_fixture(), tmp_path / f"f{mask:o}.toml")
+    finally:
+        os.umask(old)
+    assert stat.S_IMODE(os.stat(path).st_mode) == 0o666 & ~mask
+
+
+def test_an_existing_file_keeps_its_mode_and_gets_the_new_content(tmp_path):
+    path = tmp_path / "f.toml"
+    path.write_text("old")
+    os.chmod(path, 0o640)
+    files.write_fixture(_fixture(), path)
+    assert stat.S_IMODE(os.stat(path).st_mode) == 0o640
+    assert files.read_fixture(path) == _fixture()
+    assert not [p for p in tmp_path.iterdir() if p.name.startswith(".")]  # no temp left
+
+
+def test_bytes_are_written_whole(tmp_path):
+    data = bytes(range(256)) * 100
+    files._atomic_write(tmp_path / "r.pdf", data)
+    assert (tmp_path / "r.pdf").read_bytes() == data
