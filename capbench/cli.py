@@ -153,6 +153,13 @@ def build_parser() -> argparse.ArgumentParser:
             help="bench log database (default $CAPBENCH_LOG or the user data directory)",
         )
 
+    def allow_outside(sp):
+        sp.add_argument(
+            "--allow-outside",
+            action="store_true",
+            help="let the measurement name fixture or readings files outside its folder",
+        )
+
     sp = sub.add_parser(
         "solve",
         help="solve a fixture file: terminal capacitance with its error bar",
@@ -198,6 +205,7 @@ def build_parser() -> argparse.ArgumentParser:
     sp.add_argument("--budget", action="store_true", help="print every uncertainty budget")
     sp.add_argument("--log", action="store_true", help="record the result in the bench log")
     sp.add_argument("--operator", help="who measured (default: the file's, else your login)")
+    allow_outside(sp)
     log_file(sp)
 
     sp = sub.add_parser(
@@ -268,6 +276,7 @@ def build_parser() -> argparse.ArgumentParser:
     )
     sp.add_argument("--log", action="store_true", help="record the result in the bench log")
     sp.add_argument("--operator", help="who measured (default: the file's, else your login)")
+    allow_outside(sp)
     log_file(sp)
     common(sp)
 
@@ -419,7 +428,7 @@ def _cmd_extract(args, out: _Out) -> int:
     from . import report
     from .files import read_measurement
 
-    m = read_measurement(args.measurement)
+    m = read_measurement(args.measurement, allow_outside=args.allow_outside)
     out.status(f"extracting {m.specimen_id} ({m.method}, {len(m.frequencies)} frequencies)")
     res = m.extract(rtol=args.rtol, fem=not args.closed_form)
     data = report.results(res)
@@ -668,7 +677,7 @@ def _cmd_report(args, out: _Out) -> int:
     stem = args.output or str(Path(args.file).with_suffix(""))
     entry = None
     if schema == SCHEMA:
-        m = read_measurement(args.file)
+        m = read_measurement(args.file, allow_outside=args.allow_outside)
         out.status(f"extracting {m.specimen_id} ({m.method})")
         res = m.extract(rtol=args.rtol)
         rep = report.build(measurement=m, extraction=res, operator=args.operator or None)

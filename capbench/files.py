@@ -1587,7 +1587,28 @@ _MEASUREMENT_TABLES = {
 }
 
 
-def read_measurement(path: str | os.PathLike, *, with_readings: bool = True) -> Measurement:
+def _beside(path: Path, name: str, key: str, table: Any, allow_outside: bool) -> Path:
+    """The file a measurement names, which must stay inside the measurement's folder
+    (after links are followed) unless the user allows otherwise: a shared measurement
+    file must not make capbench read, or quote, a file elsewhere on the machine."""
+    target = path.parent / name
+    if allow_outside:
+        return target
+    folder = path.parent.resolve()
+    if Path(name).is_absolute() or not target.resolve().is_relative_to(folder):
+        raise table.error(
+            key,
+            f"= {name!r} leads outside the measurement's folder {folder}; keep the file "
+            "beside the measurement (or allow it: --allow-outside on the command line, "
+            "allow_outside=True in read_measurement)",
+            value=name,
+        )
+    return target
+
+
+def read_measurement(
+    path: str | os.PathLike, *, with_readings: bool = True, allow_outside: bool = False
+) -> Measurement:
     """Read and check a ``capbench-measurement/1`` TOML file and its readings CSV
     (``with_readings=False``: the set-up only, ``readings`` empty).
 
@@ -1606,6 +1627,9 @@ def read_measurement(path: str | os.PathLike, *, with_readings: bool = True) -> 
                       (capacitance; contacting, air_gap, liquid), spacing (air_gap),
                       empty_eps_r (liquid), spacing_half_width (micrometer), fluid1 or
                       eps_fluid1 and fluid2 or eps_fluid2 (two_fluid)
+
+    The fixture and readings files a measurement names must lie inside its folder (after
+    symbolic links are followed) unless ``allow_outside=True``.
 
     The methods and their readings columns (:func:`read_readings`; a column a method
     does not use is refused, a blank optional cell is not a reading):
@@ -1682,7 +1706,7 @@ def read_measurement(path: str | os.PathLike, *, with_readings: bool = True) -> 
             f"{min(readings_t) * 1e3:.6g} mm to {max(readings_t) * 1e3:.6g} mm, more than "
             "10 % apart; check their units"
         )
-    fixture = _measurement_fixture(fix, path)
+    fixture = _measurement_fixture(fix, path, allow_outside)
     tolerances = []
     for key in sorted(tol.data):
         half = tol.quantity(key, "length")
@@ -1723,7 +1747,7 @@ def read_measurement(path: str | os.PathLike, *, with_readings: bool = True) -> 
     readings_name = meth.text("readings")
     readings: tuple[Reading, ...] = ()
     if with_readings:
-        readings = _measurement_readings(meth, path, readings_name, method)
+        readings = _measurement_readings(meth, path, readings_name, method, allow_outside)
     if method == "micrometer":
         _check_spacing_half_width(meth, options, readings_t, readings)
     return Measurement(
@@ -1760,7 +1784,7 @@ def _in_range(table: _Table, key: str, value: float, what: str) -> float:
         raise table.error(key, f"= {table.get(key.split('[')[0])!r}: {exc}", value=value) from None
 
 
-def _measurement_fixture(fix: _Table, path: Path) -> Fixture:
+def _measurement_fixture(fix: _Table, path: Path, allow_outside: bool = False) -> Fixture:
     if "file" in fix.data:
         if set(fix.data) - {"file"}:
             raise fix.error(
@@ -1769,7 +1793,9 @@ def _measurement_fixture(fix: _Table, path: Path) -> Fixture:
                 "and arguments, not both",
             )
         name = fix.text("file")
-        target = (path.parent / name).resolve()
+        if not name.lower().endswith(".toml"):
+            raise fix.error("file", f"= {name!r} must name a .toml fixture file", value=name)
+        target = _beside(path, name, "file", fix, allow_outside)
         if target.suffix.lower() != ".toml":
             raise fix.error("file", f"= {name!r} must name a .toml fixture file", value=name)
         try:
@@ -1895,10 +1921,12 @@ def _check_spacing_half_width(
         )
 
 
-def _measurement_readings(meth: _Table, path: Path, name: str, method: str) -> tuple[Reading, ...]:
-    target = path.parent / name
-    if target.suffix.lower() != ".csv":
+def _measurement_readings(
+    meth: _Table, path: Path, name: str, method: str, allow_outside: bool = False
+) -> tuple[Reading, ...]:
+    if not name.lower().endswith(".csv"):
         raise meth.error("readings", f"= {name!r} must name a .csv readings file", value=name)
+    target = _beside(path, name, "readings", meth, allow_outside)
     try:
         readings = read_readings(target)
     except FileFormatError:

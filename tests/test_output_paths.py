@@ -67,3 +67,62 @@ def test_bytes_are_written_whole(tmp_path):
     data = bytes(range(256)) * 100
     files._atomic_write(tmp_path / "r.pdf", data)
     assert (tmp_path / "r.pdf").read_bytes() == data
+
+
+# ------------------------------------------------------------------ files a measurement names
+
+SECRET = "root:x:0:0:the first line of a file the user never named\n"
+
+
+def _measurement(folder, readings):
+    src = files.Path(__file__).resolve().parent.parent / "fixtures" / "quillfield"
+    text = (src / "qf-pe-03.toml").read_text()
+    text = text.replace('readings = "qf-pe-03_readings.csv"', f"readings = {readings!r}")
+    folder.mkdir(parents=True, exist_ok=True)
+    (folder / "m.toml").write_text(text)
+    return folder / "m.toml", (src / "qf-pe-03_readings.csv").read_text()
+
+
+@pytest.mark.parametrize("name", ["../outside/secret.csv", "/{abs}/secret.csv"])
+def test_readings_outside_the_folder_are_refused_without_quoting_them(tmp_path, name):
+    outside = tmp_path / "outside"
+    outside.mkdir()
+    (outside / "secret.csv").write_text(SECRET)
+    path, _ = _measurement(tmp_path / "lab", name.format(abs=str(outside).strip("/")))
+    with pytest.raises(InputError) as info:
+        files.read_measurement(path)
+    message = str(info.value)
+    assert "outside the measurement's folder" in message
+    assert "--allow-outside" in message
+    assert "root:x" not in message
+
+
+def test_a_link_inside_the_folder_that_leads_out_is_refused(tmp_path):
+    (tmp_path / "secret.csv").write_text(SECRET)
+    path, _ = _measurement(tmp_path / "lab", "r.csv")
+    (tmp_path / "lab" / "r.csv").symlink_to(tmp_path / "secret.csv")
+    with pytest.raises(InputError, match="outside the measurement's folder"):
+        files.read_measurement(path)
+
+
+def test_a_subfolder_is_inside_and_allow_outside_reads_elsewhere(tmp_path):
+    path, csv = _measurement(tmp_path / "lab", "data/r.csv")
+    (tmp_path / "lab" / "data").mkdir()
+    (tmp_path / "lab" / "data" / "r.csv").write_text(csv)
+    assert len(files.read_measurement(path).readings) > 0
+    path2, _ = _measurement(tmp_path / "lab2", "../lab/data/r.csv")
+    with pytest.raises(InputError):
+        files.read_measurement(path2)
+    m = files.read_measurement(path2, allow_outside=True)
+    assert m.readings == files.read_measurement(path).readings
+
+
+def test_the_command_line_refuses_and_allows_on_request(tmp_path, capsys):
+    from capbench.cli import main
+
+    path, csv = _measurement(tmp_path / "lab2", "../lab/r.csv")
+    (tmp_path / "lab").mkdir()
+    (tmp_path / "lab" / "r.csv").write_text(csv)
+    assert main(["extract", str(path), "--closed-form"]) == 1
+    assert "outside the measurement's folder" in capsys.readouterr().err
+    assert main(["extract", str(path), "--closed-form", "--allow-outside"]) == 0
