@@ -7,7 +7,7 @@ from __future__ import annotations
 import pytest
 
 from capbench import files, units
-from capbench.errors import CapbenchError, InputError
+from capbench.errors import CapbenchError, GeometryError, InputError
 
 FIXTURE = """schema = "capbench-fixture/1"
 kind = "parallel_discs"
@@ -91,3 +91,77 @@ def test_the_documented_largest_readings_table_reads():
 def test_a_huge_integer_is_refused_with_its_name():
     with pytest.raises(InputError, match=r"gap = 1000.* too large"):
         units.to_si(10**400, "length", "gap")
+
+
+# ------------------------------------------------------------------ geometry checks
+
+
+def _star(n, cx=0.05, cy=0.05):
+    import math
+
+    import numpy as np
+
+    th = np.linspace(0, 2 * math.pi, n, endpoint=False)
+    r = 0.01 * (1 + 0.1 * np.sin(40 * th))
+    return tuple(zip((r * np.cos(th) + cx).tolist(), (r * np.sin(th) + cy).tolist(), strict=True))
+
+
+@pytest.mark.timeout(20)
+def test_the_largest_polygon_is_checked_and_a_larger_one_refused():
+    from capbench.geometry import MAX_POLYGON_POINTS, Polygon
+
+    Polygon(_star(MAX_POLYGON_POINTS))  # about 0.1 s here; the pairwise check took 130 s
+    pts = list(_star(MAX_POLYGON_POINTS))
+    pts[10], pts[5000] = pts[5000], pts[10]  # two far-apart points swapped: edges cross
+    with pytest.raises(GeometryError, match="cross"):
+        Polygon(tuple(pts))
+    with pytest.raises(GeometryError, match="at most 10,000"):
+        Polygon(_star(MAX_POLYGON_POINTS + 1))
+
+
+def test_near_pairs_finds_exactly_the_meeting_boxes():
+    """Against the plain pairwise test on random boxes shaped like fixture parts (many
+    small, a few long thin plates): the grid must neither miss nor invent a pair."""
+    import numpy as np
+
+    from capbench.geometry import near_pairs
+
+    rng = np.random.default_rng(7)
+    lo = rng.uniform(0, 0.1, (300, 2))
+    size = rng.lognormal(-7, 1.0, (300, 2))
+    size[:10, 0] = 0.08  # long electrodes
+    hi = lo + size
+    got = {tuple(p) for p in near_pairs(lo, hi, 1e-4).tolist()}
+    want = {
+        (i, j)
+        for i in range(300)
+        for j in range(i + 1, 300)
+        if np.all(lo[i] - 1e-4 <= hi[j] + 1e-4) and np.all(lo[j] - 1e-4 <= hi[i] + 1e-4)
+    }
+    assert got == want
+    assert len(want) > 10  # the case has pairs to find
+
+
+@pytest.mark.timeout(60)
+def test_a_thousand_conductors_are_checked_in_bounded_time():
+    from capbench import mesh
+    from capbench.geometry import PLANAR, Conductor, Geometry, Rect
+
+    parts = tuple(
+        Conductor(
+            f"c{i}",
+            Rect(
+                0.01 * (i % 32), 0.01 * (i // 32), 0.01 * (i % 32) + 0.004, 0.01 * (i // 32) + 0.004
+            ),
+        )
+        for i in range(1000)
+    )
+    g = Geometry(PLANAR, parts)
+    pieces = mesh.planar_graph(g, mesh.domain_box(g))  # 21 s before the grid, 0.5 s after
+    assert len(pieces) == 4 * 1000 + 4
+    mesh._check_resolvable(pieces, g.size())
+    # two of them 1e-9 m apart (below 1e-7 of the fixture's size) are refused
+    close = (*parts[:-1], Conductor("c999", Rect(0.0040000001, 0.0, 0.006, 0.004)))
+    g2 = Geometry(PLANAR, close)
+    with pytest.raises(GeometryError, match="gap between"):
+        mesh._check_resolvable(mesh.planar_graph(g2, mesh.domain_box(g2)), g2.size())
