@@ -14,7 +14,7 @@ fx = state.current_fixture()
 if fx is None:
     state.fixture_missing_note()
     st.stop()
-st.markdown(f"Fixture: **{fx.name}** ({fx.kind.replace('_', ' ')}).")
+st.markdown(f"Fixture: **{state.as_text(fx.name)}** ({fx.kind.replace('_', ' ')}).")
 
 methods = list(wb.METHOD_FORMS)
 st.session_state.setdefault("extract.method", st.session_state[state.METHOD])

@@ -16,6 +16,10 @@ import streamlit as st
 import capbench as cb
 from capbench import workbench as wb
 
+#: user text as literal text inside Markdown (one escape, shared with the summary)
+as_text = wb.markdown_text
+
+
 #: keys of the results and inputs the pages share (none is a widget's key)
 FIXTURE_BUILDER = "bench.fixture.builder"
 FIXTURE_TEXTS = "bench.fixture.texts"  # builder -> {box key: text}
@@ -127,7 +131,7 @@ def text_box(entry: wb.Entry, store: dict[str, str], prefix: str) -> str:
 def inline_error(message: str | None) -> None:
     """The message under a box that names the box and what would be valid."""
     if message:
-        st.error(message, icon=":material/error:")
+        st.error(as_text(message), icon=":material/error:")
 
 
 @contextmanager
@@ -137,12 +141,14 @@ def shielded(where: str) -> Iterator[None]:
     try:
         yield
     except cb.CapbenchError as exc:
-        st.error(f"{where}: {exc}", icon=":material/error:")
+        st.error(as_text(f"{where}: {exc}"), icon=":material/error:")
     except Exception as exc:  # the page boundary: nothing may escape as a traceback
         traceback.print_exc()  # to the server's log, for the developers
         st.error(
-            f"{where}: an unexpected {type(exc).__name__} ({exc}). Nothing was saved; "
-            "check the entries above, and report it if it persists.",
+            as_text(
+                f"{where}: an unexpected {type(exc).__name__} ({exc}). Nothing was saved; "
+                "check the entries above, and report it if it persists."
+            ),
             icon=":material/error:",
         )
 
@@ -159,7 +165,7 @@ def sidebar() -> None:
     with st.sidebar:
         fx = current_fixture()
         if fx is not None:
-            st.caption(f"Fixture: **{fx.name}** ({fx.kind.replace('_', ' ')})")
+            st.caption(f"Fixture: **{as_text(fx.name)}** ({fx.kind.replace('_', ' ')})")
         sol = st.session_state.get(SOLUTION)
         if sol is not None and fx is not None and sol.fixture == fx:
             st.caption(f"Solved: {cap_text(sol)}")

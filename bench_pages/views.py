@@ -14,7 +14,7 @@ def solve_summary(compact: bool = False) -> None:
     """The solved capacitance with its error estimate (and, in full, the matrix)."""
     err = st.session_state.get(state.SOLVE_ERROR)
     if err:
-        st.error(err, icon=":material/error:")
+        st.error(state.as_text(err), icon=":material/error:")
     sol = actions.current_solution()
     if sol is None:
         return
@@ -44,7 +44,7 @@ def extraction_headline() -> None:
     """eps' (and tan delta) of the reported point, with the expanded uncertainty."""
     err = st.session_state.get(state.EXTRACT_ERROR)
     if err:
-        st.error(err, icon=":material/error:")
+        st.error(state.as_text(err), icon=":material/error:")
     res = st.session_state.get(state.EXTRACTION)
     if res is None:
         return

@@ -72,6 +72,17 @@ _EXAMPLE = {
 }
 
 
+def echo(value: Any) -> str:
+    """A value as a message should echo it: text as typed (quoted), a quantity as its
+    number and unit ('1e+308 km', not pint's ``<Quantity(1e+308, 'kilometer')>``)."""
+    if isinstance(value, pint.Quantity):
+        try:
+            return repr(f"{value.magnitude:g} {value.units:~P}".strip())
+        except (TypeError, ValueError):
+            return repr(f"{value.magnitude} {value.units:~P}".strip())
+    return repr(value)
+
+
 def _plain_unit(unit: str) -> bool:
     """Whether ``unit`` is names joined by * and /, in at most a few brackets, each name
     raised to at most :data:`MAX_UNIT_POWER` (exponents follow a name or a bracket, never
@@ -171,7 +182,8 @@ def parse_quantity(value: Any, name: str = "value") -> pint.Quantity:
             q = Q_(float(number), unit or "")
         except Exception as exc:  # pint raises several unrelated types here
             raise InputError(
-                f"{name} = {value!r} is not a number with a unit (e.g. '25 mm', '4.7 pF'): {exc}",
+                f"{name} = {echo(value)} is not a number with a unit "
+                f"(e.g. '25 mm', '4.7 pF'): {exc}",
                 name=name,
                 value=value,
             ) from None
@@ -181,12 +193,12 @@ def parse_quantity(value: Any, name: str = "value") -> pint.Quantity:
             return Q_(float(value), "")
         except OverflowError:  # an integer beyond the float range
             raise InputError(
-                f"{name} = {value!r} is too large to be a number (at most about 1.8e308)",
+                f"{name} = {echo(value)} is too large to be a number (at most about 1.8e308)",
                 name=name,
                 value=value,
             ) from None
     raise InputError(
-        f"{name} = {value!r} has type {type(value).__name__}; give a number, "
+        f"{name} = {echo(value)} has type {type(value).__name__}; give a number, "
         "a string such as '25 mm', or a pint Quantity",
         name=name,
         value=value,
@@ -211,12 +223,14 @@ def to_si(value: Any, kind: str, name: str = "value") -> float:
             number = float(value)
         except OverflowError:  # an integer beyond the float range
             raise InputError(
-                f"{name} = {value!r} is too large to be a number (at most about 1.8e308)",
+                f"{name} = {echo(value)} is too large to be a number (at most about 1.8e308)",
                 name=name,
                 value=value,
             ) from None
         if not math.isfinite(number):
-            raise InputError(f"{name} = {value!r} is not a finite number", name=name, value=value)
+            raise InputError(
+                f"{name} = {echo(value)} is not a finite number", name=name, value=value
+            )
         return number
     q = parse_quantity(value, name)
     # only a bare number is taken in the base unit; "5 %" or "2 mm/m" are dimensionless
@@ -229,7 +243,7 @@ def to_si(value: Any, kind: str, name: str = "value") -> float:
     except pint.DimensionalityError:
         shown = unit or "a plain number"
         raise InputError(
-            f"{name} = {value!r} is not a {kind}; give it in {shown} or another "
+            f"{name} = {echo(value)} is not a {kind}; give it in {shown} or another "
             f"{kind} unit (got {q.units:~P})",
             name=name,
             value=value,
@@ -238,13 +252,13 @@ def to_si(value: Any, kind: str, name: str = "value") -> float:
     except (TypeError, ValueError, OverflowError):
         # a quantity holding an array, a complex number or an uncertain value
         raise InputError(
-            f"{name} = {value!r} is not a single real number with a unit; give one value, "
+            f"{name} = {echo(value)} is not a single real number with a unit; give one value, "
             f"e.g. {_EXAMPLE.get(kind, '1')!r}",
             name=name,
             value=value,
         ) from None
     if not math.isfinite(number):
-        raise InputError(f"{name} = {value!r} is not a finite number", name=name, value=value)
+        raise InputError(f"{name} = {echo(value)} is not a finite number", name=name, value=value)
     return number
 
 

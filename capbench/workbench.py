@@ -1250,6 +1250,20 @@ def point_rows(extraction: Any, k: float = 2.0) -> list[dict[str, str]]:
     return rows
 
 
+# Markdown and the page's own markup (emoji and icon codes, LaTeX between $) that user
+# text must not trigger: a fixture name holding an image link made the browser fetch it,
+# and "9**9**9 m" in a message showed as a bold "999 m"
+_MARKUP = re.compile(r"([\\`*_{}\[\]()#+\-.!|<>~$:=^])")
+
+
+def markdown_text(value: object) -> str:
+    """``value`` as literal text inside Markdown: every character that Markdown or the
+    page's markup would act on is escaped, line breaks kept. Every message and every
+    name a user typed goes through this before the page or a summary shows it."""
+    text = str(value).replace("\r\n", "\n")
+    return "  \n".join(_MARKUP.sub(r"\\\1", line) for line in text.split("\n"))
+
+
 def markdown_summary(
     *,
     fixture: Fixture,
@@ -1269,8 +1283,8 @@ def markdown_summary(
     95 % coverage with the Welch-Satterthwaite degrees of freedom in the statement
     of the reported point (GUM 6.2, G.4).
     """
-    lines = [f"# {title}", ""]
-    lines += [f"## Fixture: {fixture.name}", "", f"- kind: `{fixture.kind}`"]
+    lines = [f"# {markdown_text(title)}", ""]
+    lines += [f"## Fixture: {markdown_text(fixture.name)}", "", f"- kind: `{fixture.kind}`"]
     for key, val in fixture.params:
         if val is None or key == "shield":
             continue

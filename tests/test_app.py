@@ -49,8 +49,13 @@ def nominal(text: str) -> float:
     return float(text.split("±")[0].strip())
 
 
+def shown_text(markdown: str) -> str:
+    """What a reader sees of Markdown the page escaped (user text is shown literally)."""
+    return re.sub(r"\\(.)", r"\1", markdown)
+
+
 def errors(at: AppTest) -> list[str]:
-    return [e.value for e in at.error]
+    return [shown_text(e.value) for e in at.error]
 
 
 def images(at: AppTest) -> int:
