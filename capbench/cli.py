@@ -25,6 +25,7 @@ import io
 import json
 import math
 import os
+import re
 import sys
 import warnings
 from pathlib import Path
@@ -110,6 +111,17 @@ def _workers(text: str) -> int:
     if not 1 <= value <= 256:
         raise argparse.ArgumentTypeError(f"{text} is outside the valid range 1 to 256")
     return value
+
+
+def _entry_id(text: str) -> int:
+    """A bench-log entry number: a whole number the log can hold (SQLite's integers are
+    64-bit; a longer one made 'log show' fail with OverflowError, exit 3)."""
+    if not re.fullmatch(r"\s*\d{1,19}\s*", text) or int(text) > 2**63 - 1:
+        raise argparse.ArgumentTypeError(
+            f"{text[:40]!r} is not an entry number; give a whole number from 1 to "
+            f"{2**63 - 1} (see 'capbench log list')"
+        )
+    return int(text)
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -288,7 +300,7 @@ def build_parser() -> argparse.ArgumentParser:
     lp.add_argument("--specimen", help="only this specimen id")
     lp.add_argument("--limit", type=_workers, default=50, help="at most this many (1-256)")
     lp = log_sub.add_parser("show", help="one entry with its readings and results")
-    lp.add_argument("id", type=int, help="entry number (from 'capbench log list')")
+    lp.add_argument("id", type=_entry_id, help="entry number (from 'capbench log list')")
     lp = log_sub.add_parser("export", help="every result row as CSV")
     lp.add_argument("csv", help="the CSV file to write ('-' for standard output)")
     lp.add_argument("--specimen", help="only this specimen id")

@@ -2040,25 +2040,33 @@ def _accuracy(table: _Table, key: str, required: bool = True) -> AccuracySpec | 
 
 
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r", "\n", "|", "%", "\uff1d", "\uff0b", "\uff0d")
+# what a spreadsheet may skip before deciding that a cell is a formula: spaces of every
+# kind (no-break, thin, ideographic), zero-width characters, a byte-order mark, and the
+# control characters a cell can hide (NUL, vertical tab, form feed)
+_INVISIBLE = (
+    " \u00a0\u1680\u2000\u2001\u2002\u2003\u2004\u2005\u2006\u2007\u2008\u2009\u200a"
+    "\u202f\u205f\u3000\u200b\u200c\u200d\u2060\ufeff\x00\x0b\x0c"
+)
 
 
 def safe_cell(value: Any) -> Any:
     """A value made safe for a spreadsheet: text that a spreadsheet would run as a
     formula (starting with = + - @ tab CR LF | %, their full-width forms, or any of
-    these after leading spaces) gets a leading apostrophe; numbers pass.
+    these after leading spaces of any kind, zero-width characters, a byte-order mark,
+    NUL, vertical tab or form feed) gets a leading apostrophe; numbers pass.
 
     Notes
     -----
     The usual defence against CSV formula injection (common practice, no source).
-    Leading spaces are looked through because some spreadsheets trim them before
-    deciding whether a cell is a formula.
+    Leading invisible characters are looked through because some spreadsheets trim them
+    before deciding whether a cell is a formula.
     """
     if value is None:
         return ""
     if isinstance(value, (int, float)) and not isinstance(value, bool):
         return value
     text = str(value)
-    if text.lstrip(" ").startswith(_FORMULA_START):
+    if text.lstrip(_INVISIBLE).startswith(_FORMULA_START):
         return "'" + text
     return text
 

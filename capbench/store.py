@@ -503,15 +503,21 @@ class BenchLog:
 
     def entry(self, entry_id: int) -> Entry:
         """One entry with its readings, results and fixture text."""
-        row = self._conn.execute(
-            "SELECT e.*, f.name AS fixture_name, f.toml AS fixture_toml FROM entries e "
-            "LEFT JOIN fixtures f ON f.id = e.fixture_id WHERE e.id = ?",
-            (entry_id,),
-        ).fetchone()
+        in_range = isinstance(entry_id, int) and -(2**63) <= entry_id < 2**63
+        row = (
+            self._conn.execute(
+                "SELECT e.*, f.name AS fixture_name, f.toml AS fixture_toml FROM entries e "
+                "LEFT JOIN fixtures f ON f.id = e.fixture_id WHERE e.id = ?",
+                (entry_id,),
+            ).fetchone()
+            if in_range  # SQLite's integers are 64-bit: a longer one raised OverflowError
+            else None
+        )
         if row is None:
             last = self._conn.execute("SELECT max(id) FROM entries").fetchone()[0]
             raise StoreError(
-                f"no bench-log entry {entry_id!r}; valid ids: 1 to {last or 0}",
+                f"no bench-log entry {entry_id!r}; "
+                + (f"valid ids: 1 to {last}" if last else "the log has no entries yet"),
                 value=entry_id,
             )
         readings = tuple(

@@ -126,3 +126,28 @@ def test_the_command_line_refuses_and_allows_on_request(tmp_path, capsys):
     assert main(["extract", str(path), "--closed-form"]) == 1
     assert "outside the measurement's folder" in capsys.readouterr().err
     assert main(["extract", str(path), "--closed-form", "--allow-outside"]) == 0
+
+
+# ------------------------------------------------------------------ spreadsheet cells
+
+
+@pytest.mark.parametrize(
+    "prefix", ["\u00a0", "\u2009", "\u3000", "\u200b", "\u2060", "\ufeff", "\x00", "\x0b", "\x0c"]
+)
+@pytest.mark.parametrize("formula", ["=HYPERLINK(1)", "+1+1", "-2+3", "@SUM(A1)"])
+def test_a_formula_behind_an_invisible_character_is_neutralised(prefix, formula):
+    # the usual defence against CSV formula injection (common practice, no source)
+    assert files.safe_cell(prefix + formula) == "'" + prefix + formula
+
+
+def test_plain_text_and_numbers_pass_unchanged():
+    assert files.safe_cell("PE-03 film") == "PE-03 film"
+    assert files.safe_cell(-2.5) == -2.5
+
+
+def test_an_entry_number_beyond_the_log_is_a_usage_error(capsys):
+    from capbench.cli import main
+
+    assert main(["log", "show", "99999999999999999999"]) == 2
+    err = capsys.readouterr().err
+    assert "is not an entry number" in err and "Traceback" not in err
