@@ -40,7 +40,6 @@ sys.path.insert(0, str(ROOT / "tests"))
 import references as ref  # noqa: E402
 
 import capbench as cb  # noqa: E402
-from capbench import capacitance as cc  # noqa: E402
 
 PEER_PYTHON = ROOT / ".venv-peer" / "bin" / "python"
 A = 25.0  # disc radius, mm
@@ -102,12 +101,7 @@ def _guarded() -> dict:
 
 
 def _clear() -> None:
-    clear = getattr(cb, "clear_caches", None)
-    if clear is not None:
-        clear()
-    else:  # before the public clear existed
-        cc._MESHES.clear()
-        cc._ASSEMBLIES.clear()
+    cb.clear_caches()
 
 
 def _capbench(case: dict, target: float, repeats: int) -> dict:

@@ -20,6 +20,7 @@ from . import (
     sweep,
     uncertainty,
 )
+from .caches import clear_caches
 from .capacitance import PotentialField, Solution, solve
 from .compare import Breakdown, Comparison, astm_edge_capacitance, measured_vs_ideal
 from .errors import (
@@ -161,6 +162,7 @@ __all__ = (
     "air_gap",
     "astm_edge_capacitance",
     "budget",
+    "clear_caches",
     "coaxial_cell",
     "contacting",
     "coplanar_strips",
