@@ -8,8 +8,6 @@ Typical use::
     sol.capacitance, sol.rel_error
 """
 
-from importlib.metadata import PackageNotFoundError, version
-
 # extraction of permittivity and loss, uncertainty, reference materials, measurement files
 from . import (
     extract,
@@ -20,6 +18,7 @@ from . import (
     sweep,
     uncertainty,
 )
+from ._version import __version__
 from .caches import clear_caches
 from .capacitance import PotentialField, Solution, solve
 from .compare import Breakdown, Comparison, astm_edge_capacitance, measured_vs_ideal
@@ -103,11 +102,6 @@ from .uncertainty import (
 )
 from .units import EPS0, Q_, ureg
 from .validate import CapbenchWarning
-
-try:
-    __version__ = version("capbench")
-except PackageNotFoundError:  # running from a source tree without installation
-    __version__ = "0.0.0+unknown"
 
 __all__ = (
     "AXISYMMETRIC",

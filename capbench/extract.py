@@ -1165,12 +1165,13 @@ class Extraction:
     def plot(self, axes: Any = None, k: float = 2.0) -> Any:
         """Plot eps'(f) and, with loss, tan delta(f) with error bars of k u; returns the
         matplotlib figure."""
-        import matplotlib.pyplot as plt
+        from matplotlib.figure import Figure
 
         a = self.arrays()
         loss = "tan_delta" in a
-        if axes is None:
-            fig, axes = plt.subplots(1, 2 if loss else 1, figsize=(10 if loss else 5.5, 4))
+        if axes is None:  # a Figure of its own: no pyplot state, no window
+            fig = Figure(figsize=(10 if loss else 5.5, 4))
+            axes = fig.subplots(1, 2 if loss else 1)
         axes = np.atleast_1d(axes)
         fig = axes[0].figure
         f = a["frequency"]

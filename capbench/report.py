@@ -565,7 +565,7 @@ def build(
     InputError
         When nothing to report is given, or an argument has the wrong type.
     """
-    from . import __version__
+    from ._version import __version__
     from .capacitance import Solution
     from .extract import Extraction
 
@@ -714,9 +714,9 @@ def _png(func, obj) -> bytes:
 
 
 def _close(fig) -> None:
-    import matplotlib.pyplot as plt
-
-    plt.close(fig)
+    """Release a figure's canvas memory (figures here are made without pyplot, so
+    there is no pyplot registry to close them in)."""
+    fig.clear()
 
 
 def _plot_solution(fixture: Fixture, extraction: Any):

@@ -351,7 +351,7 @@ class BenchLog:
         if kind not in KINDS:
             raise StoreError(f"entry kind = {kind!r}; valid: {list(KINDS)}", value=kind)
         _check_results(results)
-        from . import __version__
+        from ._version import __version__
 
         who = operator if operator else _login()
         fixture_toml = fixture_name = None
