@@ -214,16 +214,9 @@ def _complex_reading(c: Any, d: Any | None) -> _Cx:
 
 
 def _guard_area(r1: Any, g: Any, t: Any) -> Any:
-    x = np.pi * g / (4 * t)
-    if isinstance(x, AffineScalarFunc):
-        from uncertainties import umath
+    from .guard import _gap_factor  # the one home of B (d1 + B g)
 
-        lc = umath.log(umath.cosh(x))
-    else:
-        lc = np.log(np.cosh(x))
-    delta = 2 * t / np.pi * lc
-    b = 1 - 2 * delta / g
-    d = 2 * r1 + b * g
+    d = 2 * r1 + _gap_factor(g, t) * g
     return np.pi * d**2 / 4
 
 

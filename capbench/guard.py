@@ -24,6 +24,7 @@ from typing import Any
 
 import numpy as np
 import pint
+from uncertainties.core import AffineScalarFunc
 
 from . import validate as v
 from .capacitance import Solution, solve
@@ -92,10 +93,17 @@ def gap_factor(guard_gap: Any, specimen_thickness: Any) -> float:
     return _gap_factor(g, t)
 
 
-def _gap_factor(g: float, t: float) -> float:
+def _gap_factor(g: Any, t: Any) -> Any:
+    """B of d1 + B g for SI floats or uncertain values (ufloats), the one home of the
+    formula (the contacting method's effective area and the comparison use it too)."""
     x = math.pi * g / (4 * t)
-    # ln cosh x = x + log1p(exp(-2x)) - ln 2, stable for large x
-    lncosh = x + math.log1p(math.exp(-2 * x)) - math.log(2)
+    if isinstance(x, AffineScalarFunc):
+        from uncertainties import umath as m
+    else:
+        m = math
+    # ln cosh x = x + log1p(exp(-2x)) - ln 2, stable for large x (cosh overflows past
+    # x = 710, i.e. a gap 900 times the thickness)
+    lncosh = x + m.log1p(m.exp(-2 * x)) - math.log(2)
     delta = 2 * t / math.pi * lncosh
     return 1 - 2 * delta / g
 

@@ -370,3 +370,18 @@ def test_guard_design_example(example, tmp_path):
     assert total == pytest.approx(example.MEASURED_PF, rel=1e-12)
     saved = example.save_plots(tmp_path)
     assert len(saved) >= 4 and all(p.stat().st_size > 1000 for p in saved)
+
+
+def test_effective_area_uses_the_stable_gap_factor_for_wide_gaps():
+    """d1 + B g with B g -> (4 ln 2 / pi) t as g / t grows (the limit of the formula of
+    ASTM D150 / IEC 62631-2-1, taken by hand): the effective area stays finite where
+    cosh(pi g / 4 t) overflows (g / t > 900) and equals the limit there; one formula
+    serves the contacting method and the guard check."""
+    r1, t = 0.025, 1e-6
+    g = 1e-3  # g / t = 1000
+    area = cb.guard_effective_area(r1, g, t).to("m**2").magnitude
+    limit = math.pi * (2 * r1 + 4 * math.log(2) / math.pi * t) ** 2 / 4
+    assert math.isfinite(area)
+    assert area == pytest.approx(limit, rel=1e-12)
+    d = cb.formula_diameter(2 * r1, g, t).to("m").magnitude
+    assert math.pi * d**2 / 4 == pytest.approx(area, rel=1e-14)
