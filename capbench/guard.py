@@ -99,8 +99,10 @@ def _gap_factor(g: Any, t: Any) -> Any:
     x = math.pi * g / (4 * t)
     if isinstance(x, AffineScalarFunc):
         from uncertainties import umath as m
-    else:
-        m = math
+    elif isinstance(x, np.ndarray) and x.dtype == object:  # an array of uncertain values
+        from uncertainties import unumpy as m
+    else:  # floats or arrays of them
+        m = np
     # ln cosh x = x + log1p(exp(-2x)) - ln 2, stable for large x (cosh overflows past
     # x = 710, i.e. a gap 900 times the thickness)
     lncosh = x + m.log1p(m.exp(-2 * x)) - math.log(2)
