@@ -45,7 +45,7 @@ from . import validate as v
 from .errors import CapbenchError, FileFormatError, InputError
 from .geometry import Fixture
 from .uncertainty import AccuracySpec, type_a, type_b
-from .units import Q_, parse_quantity, to_si
+from .units import NUMBER_PATTERN, Q_, parse_quantity, to_si
 
 #: largest readings table accepted from the page (bytes); a bench table is a few kB
 MAX_TABLE_BYTES = 1_000_000
@@ -123,7 +123,9 @@ def capacitance_text(farads: float, digits: int = 7) -> str:
 
 # --------------------------------------------------------------------------- typed values
 
-_NUMBER = re.compile(r"^[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?$")
+# the one number pattern (units.NUMBER_PATTERN): "\d+\.?\d*" backtracks quadratically on
+# a long run of digits that fails to match (20,000 digits and a letter: 7 s here)
+_NUMBER = re.compile(rf"^{NUMBER_PATTERN}$")
 
 #: kind of entry -> (kind of quantity for units.to_si, unit of a bare number)
 _UNITS = {
@@ -643,7 +645,7 @@ def _reading_value(raw: str, label: str, qkind: str, unit: str, name: str, limit
 
 def _trailing_unit(text: str) -> str:
     """The unit at the end of "0.004 pF" ('' for a bare number)."""
-    m = re.match(r"^\s*[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?\s*(.*)$", text)
+    m = re.match(rf"^\s*{NUMBER_PATTERN}\s*(.*)$", text, re.DOTALL)
     return m.group(1).strip() if m else ""
 
 

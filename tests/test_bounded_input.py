@@ -165,3 +165,14 @@ def test_a_thousand_conductors_are_checked_in_bounded_time():
     g2 = Geometry(PLANAR, close)
     with pytest.raises(GeometryError, match="gap between"):
         mesh._check_resolvable(mesh.planar_graph(g2, mesh.domain_box(g2)), g2.size())
+
+
+@pytest.mark.timeout(10)
+@pytest.mark.parametrize("text", ["1" * 20000 + "." + "1" * 20000 + "e", "9" * 40000 + "x mm"])
+def test_a_page_box_with_a_huge_number_is_refused_at_once(text):
+    """The page's boxes parse with the one number pattern (units.NUMBER_PATTERN); its own
+    copy backtracked quadratically (7 s on the first string here, more on longer)."""
+    from capbench import workbench as wb
+
+    with pytest.raises(CapbenchError):
+        wb.parse_value(text, "Guard gap", "length", limits="length")
