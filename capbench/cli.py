@@ -469,7 +469,7 @@ def _cmd_extract(args, out: _Out) -> int:
     out.line(f"fixture: {m.fixture.name}; method: {res.method}")
     out.line(data["statement"])
     out.line()
-    out.line(res.table(k=2.0))
+    out.line(res.table())
     if args.budget:
         for p in res.points:
             out.line()

@@ -969,6 +969,24 @@ class Point:
     sensitivity: complex | None = None
     model: _Model | None = None
 
+    def expanded(self, quantity: str = "eps_r") -> tuple[float, float]:
+        """Expanded uncertainty U and coverage factor k of ``quantity`` ("eps_r",
+        "tan_delta" or "eps_loss") by the one rule (Budget.expanded: k from the t
+        distribution with the effective degrees of freedom, 95 % coverage). eps'' takes
+        the k of tan delta's budget (the same inputs)."""
+        if quantity == "eps_r":
+            return self.budget.expanded()
+        if self.loss_budget is None:
+            raise InputError(f"no loss was read at this point, so no {quantity}", value=quantity)
+        U, k = self.loss_budget.expanded()
+        if quantity == "tan_delta":
+            return U, k
+        if quantity == "eps_loss":
+            return k * self.eps_loss.s, k
+        raise InputError(
+            f"quantity {quantity!r}; valid: 'eps_r', 'tan_delta', 'eps_loss'", value=quantity
+        )
+
     @property
     def correction(self) -> float:
         """The FEM correction relative to the closed form: eps'_FEM / eps'_ideal - 1."""
@@ -1041,30 +1059,38 @@ class Extraction:
             "eps_r": np.array([p.eps_r.n for p in self.points]),
             "u_eps_r": np.array([p.eps_r.s for p in self.points]),
             "eps_r_ideal": np.array([p.eps_r_ideal.n for p in self.points]),
+            "U_eps_r": np.array([p.expanded("eps_r")[0] for p in self.points]),
         }
         if self.points[0].tan_delta is not None:
             out["eps_loss"] = np.array([p.eps_loss.n for p in self.points])
             out["u_eps_loss"] = np.array([p.eps_loss.s for p in self.points])
+            out["U_eps_loss"] = np.array([p.expanded("eps_loss")[0] for p in self.points])
             out["tan_delta"] = np.array([p.tan_delta.n for p in self.points])
             out["u_tan_delta"] = np.array([p.tan_delta.s for p in self.points])
+            out["U_tan_delta"] = np.array([p.expanded("tan_delta")[0] for p in self.points])
         return out
 
-    def table(self, k: float = 2.0) -> str:
-        """eps'(f) and tan delta(f) with expanded uncertainties (coverage factor ``k``)."""
+    def table(self) -> str:
+        """eps'(f) and tan delta(f) with their expanded uncertainties for 95 % coverage
+        and the coverage factor of each (k from each budget's effective degrees of
+        freedom, the one rule of :meth:`Point.expanded`)."""
         loss = self.points[0].tan_delta is not None
-        head = f"{'f':>12} {'eps_r':>10} {'U(eps_r)':>9} {'ideal':>10} {'corr.':>9}"
+        head = f"{'f':>12} {'eps_r':>10} {'U(eps_r)':>9} {'k':>5} {'ideal':>10} {'corr.':>9}"
         if loss:
-            head += f" {'eps_loss':>10} {'tan delta':>10} {'U(tan d)':>9} {'ideal':>10}"
-        lines = [f"{self.method}: FEM-corrected (k = {k:g})" if self.fem else self.method, head]
+            head += f" {'eps_loss':>10} {'tan delta':>10} {'U(tan d)':>9} {'k':>5} {'ideal':>10}"
+        title = f"{self.method}: FEM-corrected" if self.fem else self.method
+        lines = [f"{title} (expanded uncertainties, 95 % coverage)", head]
         for p in self.points:
             f = "-" if p.frequency is None else f"{p.frequency:.6g} Hz"
+            U, k = p.expanded("eps_r")
             row = (
-                f"{f:>12} {p.eps_r.n:>10.6f} {k * p.eps_r.s:>9.2g} {p.eps_r_ideal.n:>10.6f} "
+                f"{f:>12} {p.eps_r.n:>10.6f} {U:>9.2g} {k:>5.2f} {p.eps_r_ideal.n:>10.6f} "
                 f"{100 * p.correction:>8.3f}%"
             )
             if loss:
+                Ut, kt = p.expanded("tan_delta")
                 row += (
-                    f" {p.eps_loss.n:>10.4g} {p.tan_delta.n:>10.4g} {k * p.tan_delta.s:>9.2g} "
+                    f" {p.eps_loss.n:>10.4g} {p.tan_delta.n:>10.4g} {Ut:>9.2g} {kt:>5.2f} "
                     f"{p.tan_delta_ideal.n:>10.4g}"
                 )
             lines.append(row)
@@ -1155,9 +1181,9 @@ class Extraction:
             linear=y,
         )
 
-    def plot(self, axes: Any = None, k: float = 2.0) -> Any:
-        """Plot eps'(f) and, with loss, tan delta(f) with error bars of k u; returns the
-        matplotlib figure."""
+    def plot(self, axes: Any = None) -> Any:
+        """Plot eps'(f) and, with loss, tan delta(f) with error bars of the expanded
+        uncertainty (95 % coverage, :meth:`Point.expanded`); returns the figure."""
         from matplotlib.figure import Figure
 
         a = self.arrays()
@@ -1172,7 +1198,7 @@ class Extraction:
         axes[0].errorbar(
             x,
             a["eps_r"],
-            yerr=k * a["u_eps_r"],
+            yerr=a["U_eps_r"],
             fmt="o-",
             capsize=3,
             label="FEM-corrected" if self.fem else self.method,
@@ -1182,14 +1208,14 @@ class Extraction:
         axes[0].set_ylabel("eps_r'")
         axes[0].legend()
         if loss:
-            axes[1].errorbar(x, a["tan_delta"], yerr=k * a["u_tan_delta"], fmt="o-", capsize=3)
+            axes[1].errorbar(x, a["tan_delta"], yerr=a["U_tan_delta"], fmt="o-", capsize=3)
             axes[1].set_ylabel("tan delta")
         for ax in axes:
             if np.all(np.isfinite(f)):
                 ax.set_xscale("log")
                 ax.set_xlabel("frequency (Hz)")
             ax.grid(True, alpha=0.3)
-        fig.suptitle(f"{self.method}: {self.fixture.name} (error bars k = {k:g})")
+        fig.suptitle(f"{self.method}: {self.fixture.name} (error bars: U, 95 % coverage)")
         fig.tight_layout()
         return fig
 

@@ -107,7 +107,8 @@ def _gap_factor(g: Any, t: Any) -> Any:
     # x = 710, i.e. a gap 900 times the thickness)
     lncosh = x + m.log1p(m.exp(-2 * x)) - math.log(2)
     delta = 2 * t / math.pi * lncosh
-    return 1 - 2 * delta / g
+    b = 1 - 2 * delta / g
+    return float(b) if m is np and np.ndim(b) == 0 else b  # a plain float for floats
 
 
 def formula_diameter(

@@ -700,7 +700,13 @@ def build(
             )
     if extraction is not None:
         fig = extraction.plot()
-        figures.append(("result", "Result against frequency (error bars k = 2)", _figure_png(fig)))
+        figures.append(
+            (
+                "result",
+                "Result against frequency (error bars: expanded uncertainty, 95 % coverage)",
+                _figure_png(fig),
+            )
+        )
         _close(fig)
     return Report(content, tuple(figures))
 

@@ -231,8 +231,17 @@ def test_extract_single_readings_with_uncertainty_give_a_result():
     at.run()
     at.button(key="extract.run").click().run()
     assert not at.exception and not errors(at), errors(at)
-    # the same reading as the table's 1 kHz mean: eps' within the shown uncertainty
-    assert abs(nominal(metric(at, "eps' at 1 kHz")) - 2.3041) <= 0.0034
+    # the same reading as the table's 1 kHz mean: eps' within the shown uncertainty, or
+    # inside the Monte Carlo interval where the page found the GUM interval not adequate
+    # (one statement of the result: JCGM 101 clause 8)
+    shown = metric(at, "eps' at 1 kHz")
+    if " to " in shown:
+        lo, hi = (float(x) for x in shown.split(" to "))
+        assert lo <= 2.3041 <= hi and hi - lo <= 2 * 0.0034, shown
+        helps = [m.help for m in at.metric if m.label.startswith("eps' at 1 kHz")]
+        assert "Monte Carlo" in helps[0], helps
+    else:
+        assert abs(nominal(shown) - 2.3041) <= 0.0034
 
 
 def test_guard_and_comparison_pages_against_the_standards_formula():
