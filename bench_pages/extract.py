@@ -110,7 +110,7 @@ if st.button("Find eps'", type="primary", key="extract.run", disabled=bool(error
         actions.extract_current()
 
 views.extraction_headline()
-res = st.session_state.get(state.EXTRACTION)
+res = state.current_extraction()
 if res is None:
     st.stop()
 

@@ -45,8 +45,13 @@ def extraction_headline() -> None:
     err = st.session_state.get(state.EXTRACT_ERROR)
     if err:
         st.error(state.as_text(err), icon=":material/error:")
-    res = st.session_state.get(state.EXTRACTION)
+    res = state.current_extraction()
     if res is None:
+        if state.extraction_is_stale():
+            st.info(
+                "The fixture or the readings changed since the last result; press "
+                "*Find eps'* for a result of these."
+            )
         return
     i = min(st.session_state.get(state.POINT, 0), len(res.points) - 1)
     p = res.points[i]

@@ -216,7 +216,9 @@ def build_parser() -> argparse.ArgumentParser:
     )
     sp.add_argument("--budget", action="store_true", help="print every uncertainty budget")
     sp.add_argument("--log", action="store_true", help="record the result in the bench log")
-    sp.add_argument("--operator", help="who measured (default: the file's, else your login)")
+    sp.add_argument(
+        "--operator", help="who measured (default: the measurement file's [lab] operator)"
+    )
     allow_outside(sp)
     log_file(sp)
 
@@ -287,7 +289,9 @@ def build_parser() -> argparse.ArgumentParser:
         help="comma-separated: html, pdf, json (default all three)",
     )
     sp.add_argument("--log", action="store_true", help="record the result in the bench log")
-    sp.add_argument("--operator", help="who measured (default: the file's, else your login)")
+    sp.add_argument(
+        "--operator", help="who measured (default: the measurement file's [lab] operator)"
+    )
     allow_outside(sp)
     log_file(sp)
     common(sp)

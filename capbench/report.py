@@ -506,6 +506,10 @@ _CSS = (
 # --------------------------------------------------------------------------- build
 
 
+#: what a measurement record holds: who measured what, where, with what and when
+RECORD_FIELDS = ("lab", "bench", "operator", "specimen", "instrument", "date of measurement")
+
+
 def build(
     fixture: Fixture | None = None,
     *,
@@ -518,6 +522,7 @@ def build(
     lab: str | None = None,
     operator: str | None = None,
     specimen_id: str | None = None,
+    record: Mapping[str, str] | None = None,
     notes: str = "",
     coverage: float = 0.95,
     rtol: float = 1e-6,
@@ -544,6 +549,10 @@ def build(
         A guard-ring check to include.
     comparison : Comparison, optional
         A measured-against-ideal breakdown to include.
+    record : mapping of str to str, optional
+        The measurement record as entered on the page (keys ``lab``, ``bench``,
+        ``operator``, ``specimen``, ``instrument``, ``date of measurement``); a value
+        given here replaces the measurement file's, an empty one leaves it out.
     title, lab, operator, specimen_id, notes : str, optional
         Override or add to the metadata.
     coverage : float
@@ -610,6 +619,10 @@ def build(
         meta["fixture"] = fixture.name
     if extraction is not None:
         meta["method"] = extraction.method
+    for key, value in (record or {}).items():
+        if key not in RECORD_FIELDS:
+            raise InputError(f"record field {key!r}; valid: {', '.join(RECORD_FIELDS)}", value=key)
+        meta[key] = str(value).strip()
     if notes:
         meta["notes"] = notes
     meta = {k: v for k, v in meta.items() if v}

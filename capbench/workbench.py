@@ -1130,6 +1130,9 @@ class Demo:
     method: str
     method_texts: dict[str, str]
     table: str
+    #: the demo's measurement record (lab, operator, specimen, ...): shown and reported
+    #: only while the page holds the demo's own fixture and readings
+    record: dict[str, str] = field(default_factory=dict)
 
 
 def demo() -> Demo:
@@ -1163,6 +1166,14 @@ def demo() -> Demo:
         m.method,
         mtexts,
         csv_path.read_text(encoding="utf-8"),
+        {
+            "lab": m.lab,
+            "bench": m.bench,
+            "operator": m.operator,
+            "specimen": m.specimen_id,
+            "instrument": m.instrument,
+            "date of measurement": m.date,
+        },
     )
 
 
