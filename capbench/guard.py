@@ -828,19 +828,29 @@ class EdgeField:
         pressure; common practice, no source)."""
         return AIR_BREAKDOWN / self.governing
 
+    def text(self) -> str:
+        """The one statement of the edge field, in kV/m per volt applied, that the
+        caution, the field map and the reports all show (a field map's largest vertex
+        value at a sharp edge is singular and mesh-dependent, so it is not a figure)."""
+        if self.sharp:
+            return (
+                f"{self.field_at_distance / 1e3:.4g} kV/m per volt at "
+                f"{self.distance * 1e6:.3g} um from the sharp edge (unbounded at the edge "
+                "itself)"
+            )
+        shown = self.peak_in_medium if self.peak_in_medium is not None else self.peak
+        return f"peak {shown / 1e3:.4g} kV/m per volt applied"
+
     def caution(self) -> str:
         """A caution about the edge field, with the deferral to local codes."""
         parts = []
         if self.sharp:
             parts.append(
-                "Sharp electrode edges: the field there is unbounded in theory; at "
-                f"{self.distance * 1e6:.3g} um from the edge it is "
-                f"{self.field_at_distance / 1e3:.4g} kV/m per volt. Rounded edges "
+                f"Sharp electrode edges: the edge field is {self.text()}. Rounded edges "
                 "(edge_radius) bound it."
             )
         else:
-            shown = self.peak_in_medium if self.peak_in_medium is not None else self.peak
-            parts.append(f"Peak edge field {shown / 1e3:.4g} kV/m per volt applied.")
+            parts.append(f"Edge field: {self.text()}.")
         vb = self.voltage_at_air_breakdown
         parts.append(
             f"Air (about 3 kV/mm at atmospheric pressure, common practice) would reach "

@@ -1475,10 +1475,16 @@ def field_strength_figure(solution: Any, window: Sequence[float] | None = None) 
     fig.colorbar(mesh, ax=ax, label="|E| (V/m per V applied)", shrink=0.85)
     draw_fixture(fx, ax, labels=False, outline_only=True)
     if inside.any():
+        from .guard import edge_field
+
         k = int(np.argmax(np.where(inside, e, -1.0)))
         ax.plot(x[k], y[k], marker="o", mfc="none", mec="cyan", ms=10, mew=1.5)
+        try:  # the figure the caution states, not the mesh-dependent vertex value
+            note = edge_field(solution).text()
+        except CapbenchError:
+            note = "edge field: see the caution"
         ax.annotate(
-            f"largest: {sig(e[k] / 1e3, 3)} kV/m per V (mesh-dependent at a sharp edge)",
+            note,
             (x[k], y[k]),
             xytext=(-8, 10),
             textcoords="offset points",

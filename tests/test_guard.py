@@ -385,3 +385,17 @@ def test_effective_area_uses_the_stable_gap_factor_for_wide_gaps():
     assert area == pytest.approx(limit, rel=1e-12)
     d = cb.formula_diameter(2 * r1, g, t).to("m").magnitude
     assert math.pi * d**2 / 4 == pytest.approx(area, rel=1e-14)
+
+
+def test_the_field_map_and_the_caution_state_the_same_edge_field():
+    """Issue 14: the map labelled its largest vertex value (singular at a sharp edge:
+    2327 kV/m per V) where the caution said 2.851 kV/m per volt for the same fixture;
+    both now show EdgeField.text()."""
+    from capbench import workbench as wb
+
+    sol = cb.solve(cb.parallel_discs(radius="9 mm", gap="1.2 mm"), rtol=1e-4)
+    text = cb.edge_field(sol).text()
+    assert text in cb.edge_field(sol).caution()
+    fig = wb.field_strength_figure(sol)
+    notes = [t.get_text() for ax in fig.axes for t in ax.texts]
+    assert text in notes, notes
