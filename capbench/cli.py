@@ -126,7 +126,7 @@ def _entry_id(text: str) -> int:
 
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser of the ``capbench`` command."""
-    from .validate import SOLVERS
+    from .options import SOLVERS
 
     p = _Parser(
         prog="capbench",
@@ -872,8 +872,7 @@ def main(
             sys.stdout, sys.stderr = saved
     except SystemExit as exc:  # --help, --version (0) or a usage error (2)
         return int(exc.code or 0)
-    from .errors import CapbenchError
-    from .validate import CapbenchWarning
+    from .errors import CapbenchError, CapbenchWarning
 
     def show_warning(message, category, filename, lineno, file=None, line=None):
         if issubclass(category, CapbenchWarning):
