@@ -204,8 +204,6 @@ def solver_budget(time_budget: Any, max_dofs: Any) -> tuple[float, int]:
     return t, int(n)
 
 
-
-
 def solver(value: Any) -> str:
     """A solver choice, one of SOLVERS."""
     if value not in SOLVERS:
