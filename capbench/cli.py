@@ -223,6 +223,28 @@ def build_parser() -> argparse.ArgumentParser:
     log_file(sp)
 
     sp = sub.add_parser(
+        "relax",
+        help="fit relaxation models to a measurement's eps*(f), with a Kramers-Kronig check",
+        description="Extract eps' and eps'' at every frequency of a measurement file, then "
+        "fit Debye, Cole-Cole, Cole-Davidson and Havriliak-Negami models (with and without "
+        "a DC conductivity) by generalised least squares over the spectrum's covariance; "
+        "rank them by BIC (or AIC) and test the spectrum's Kramers-Kronig consistency.",
+    )
+    sp.add_argument("measurement", help="a capbench-measurement/1 TOML file with loss readings")
+    sp.add_argument(
+        "--model",
+        default="auto",
+        choices=("auto", "debye", "cole-cole", "cole-davidson", "havriliak-negami"),
+        help="one model, or auto: every model, ranked (default)",
+    )
+    sp.add_argument("--criterion", choices=("bic", "aic"), default="bic", help="ranking")
+    sp.add_argument(
+        "--closed-form", action="store_true", help="the parallel-plate formula only (no FEM)"
+    )
+    allow_outside(sp)
+    common(sp)
+
+    sp = sub.add_parser(
         "guard",
         help="check a guarded cell's guard ring against a target edge error",
         description="Effective area of the guarded electrode from the field, against the "
@@ -432,6 +454,56 @@ _LOGGED_READING_EXTRAS = (
     ("empty_spacing", "s2", lambda x: f"{x * 1e3:.6g} mm"),
     ("fluid", "fluid", lambda x: f"{x}"),
 )
+
+
+def _cmd_relax(args, out: _Out) -> int:
+    from . import dispersion as dsp
+    from .files import read_measurement
+
+    m = read_measurement(args.measurement, allow_outside=args.allow_outside)
+    out.status(f"extracting {m.specimen_id} ({m.method}, {len(m.frequencies)} frequencies)")
+    res = m.extract(rtol=args.rtol, fem=not args.closed_form)
+    spectrum = dsp.Spectrum.from_extraction(res)
+    if args.model == "auto":
+        fits = dsp.choose(spectrum, criterion=args.criterion)
+    else:
+        fits = [dsp.fit(spectrum, args.model, c) for c in (False, True)]
+        fits.sort(key=lambda r: getattr(r, args.criterion))
+    kk = dsp.kramers_kronig(spectrum) if spectrum.frequency.size >= 5 else None
+    if out.as_json:
+        out.json(
+            {
+                "specimen": m.specimen_id,
+                "method": res.method,
+                "criterion": args.criterion,
+                "fits": [
+                    {
+                        "model": r.model,
+                        "conductivity": r.conductivity,
+                        "chi2": r.chi2,
+                        "dof": r.dof,
+                        "aic": r.aic,
+                        "bic": r.bic,
+                        "params": {
+                            k: {"value": v.nominal_value, "u": v.std_dev}
+                            for k, v in r.params.items()
+                        },
+                    }
+                    for r in fits
+                ],
+                "kramers_kronig": None
+                if kk is None
+                else {"consistent": kk.consistent, "max_z": float(max(abs(kk.z)))},
+            }
+        )
+        return EXIT_OK
+    out.line(f"specimen {m.specimen_id}: {len(res.points)} frequencies, {res.method}")
+    out.line(f"models ranked by {args.criterion.upper()} (best first; u = standard uncertainty):")
+    for r in fits:
+        out.line(r.table())
+    out.line(kk.text() if kk else "Kramers-Kronig check: needs at least 5 frequencies")
+    out.line(CAUTION_LINE)
+    return EXIT_OK
 
 
 def _open_log(args):
@@ -847,6 +919,7 @@ def _one_line(exc: BaseException) -> str:
 _COMMANDS = {
     "solve": _cmd_solve,
     "extract": _cmd_extract,
+    "relax": _cmd_relax,
     "guard": _cmd_guard,
     "compare": _cmd_compare,
     "sweep": _cmd_sweep,

@@ -157,6 +157,8 @@ class Fit:
     aic: float
     bic: float
     residuals: np.ndarray
+    #: parameters the fit pushed to a limit of their range (the data do not fix them)
+    at_bounds: tuple[str, ...] = ()
 
     def permittivity(self, f: Any) -> np.ndarray:
         p = {k: v.nominal_value for k, v in self.params.items()}
@@ -170,7 +172,14 @@ class Fit:
         ]
         units = {"tau": "s", "sigma": "S/m"}
         for k, v in self.params.items():
-            lines.append(f"  {k:8s} = {v.nominal_value:.6g} +- {v.std_dev:.2g} {units.get(k, '')}")
+            note = (
+                "  (at the limit of its range: not fixed by the data)"
+                if k in self.at_bounds
+                else ""
+            )
+            lines.append(
+                f"  {k:8s} = {v.nominal_value:.6g} +- {v.std_dev:.2g} {units.get(k, '')}{note}"
+            )
         return "\n".join(lines)
 
 
@@ -264,7 +273,12 @@ def fit(spectrum: Spectrum, model: str = "havriliak-negami", conductivity: bool 
     k_par = len(names)
     aic = chi2 + 2 * k_par
     bic = chi2 + k_par * math.log(2 * n)
-    return Fit(model, conductivity, params, chi2, dof, aic, bic, best.fun)
+    at_bounds = tuple(
+        k
+        for k, x in zip(names, best.x, strict=True)
+        if min(abs(x - lo[k]), abs(x - hi[k])) <= 1e-6 * max(1.0, abs(x))
+    )
+    return Fit(model, conductivity, params, chi2, dof, aic, bic, best.fun, at_bounds)
 
 
 def choose(
