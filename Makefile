@@ -45,7 +45,7 @@ quick: install
 # The property tests with the long hypothesis profile ("fuzz": 400 examples a test, a
 # tenth of that where each example solves a field), with how many inputs each tried.
 PROPERTY_TESTS := tests/test_properties.py tests/test_properties_files.py \
-	tests/test_properties_extract.py
+	tests/test_properties_extract.py tests/test_page_text.py tests/test_tolerant_geometry.py
 fuzz: install
 	HYPOTHESIS_PROFILE=fuzz $(BIN)/python -m pytest -q -p no:cacheprovider \
 		--hypothesis-show-statistics $(PROPERTY_TESTS)

@@ -6,6 +6,8 @@ from __future__ import annotations
 
 import re
 
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 from test_app import errors, go, start
 
 from capbench import workbench as wb
@@ -46,5 +48,51 @@ def test_a_message_echoes_what_was_typed():
     assert not at.exception, at.exception
     shown = " | ".join(errors(at))
     assert "'9**9**9 m'" in shown, shown
+    for e in at.error:
+        assert not _unescaped_markup(e.value), e.value
+
+
+# generated text of the hostile families (markup, exponent chains, control characters,
+# long digit runs) typed into a fixture box: the page answers every one without an
+# exception, with either a drawing or a message under the box (never a hang: each run is
+# bounded by AppTest's timeout)
+_PIECES = st.sampled_from(
+    [
+        "**9",
+        "^9",
+        "(",
+        ")",
+        "mm",
+        "![x](http://192.0.2.1/a)",
+        "<b>",
+        "$",
+        ":",
+        "\u200b",
+        "\ufeff",
+        "\x0c",
+        "=",
+        "+",
+        "-",
+        "e",
+        ".",
+        "1" * 300,
+        " ",
+        "um",
+        "in",
+        "%",
+    ]
+)
+
+
+@settings(deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(st.lists(_PIECES, min_size=1, max_size=8).map("".join))
+def test_generated_text_in_a_box_never_breaks_the_page(text):
+    at = go(start(), "fixture")
+    at.text_input(key="fixture.guarded_cell.guard_gap").set_value("0.5" + text)
+    at.run()
+    assert not at.exception, at.exception
+    shown = errors(at)
+    drawn = any(getattr(e, "type", None) == "image" for e in at.main)
+    assert shown or drawn, "neither a message nor a drawing"
     for e in at.error:
         assert not _unescaped_markup(e.value), e.value
