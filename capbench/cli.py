@@ -31,14 +31,13 @@ import warnings
 from pathlib import Path
 from typing import Any, TextIO
 
+from .cautions import SHORT as CAUTION_LINE
+
 EXIT_OK = 0
 EXIT_INPUT = 1
 EXIT_USAGE = 2
 EXIT_INTERNAL = 3
 
-CAUTION_LINE = (
-    "Caution: bench fixtures can carry high voltage; follow local codes and licensed practice."
-)
 
 _EPILOG = """\
 examples:
@@ -347,12 +346,18 @@ class _Out:
         self.stderr = stderr
         self.as_json = as_json
         self.progress = progress or getattr(stderr, "isatty", lambda: False)()
+        self.cautioned = False
 
     def json(self, data: Any) -> None:
+        if isinstance(data, dict) and "caution" not in data:
+            data = {**data, "caution": CAUTION_LINE}  # every document carries it
         self.stdout.write(json.dumps(data, indent=2, allow_nan=False, default=str) + "\n")
+        self.cautioned = True
 
     def line(self, text: str = "") -> None:
         self.stdout.write(text + "\n")
+        if text == CAUTION_LINE:
+            self.cautioned = True
 
     def status(self, text: str) -> None:
         if self.progress:
@@ -506,6 +511,15 @@ def _cmd_relax(args, out: _Out) -> int:
     return EXIT_OK
 
 
+def _fluid_caution(m: Any) -> str:
+    """The hazards of the test liquids a measurement names (two-fluid method)."""
+    from .cautions import for_fluids
+
+    options = dict(m.method_options)
+    names = [str(options.get(k, "")) for k in ("fluid1", "fluid2")]
+    return for_fluids(n.split()[0] for n in names if n)
+
+
 def _open_log(args):
     from .store import BenchLog
 
@@ -544,6 +558,9 @@ def _cmd_extract(args, out: _Out) -> int:
     out.line(f"{m.lab}, {m.bench}: specimen {m.specimen_id} ({m.description})")
     out.line(f"fixture: {m.fixture.name}; method: {res.method}")
     out.line(data["statement"])
+    fluids = _fluid_caution(m)
+    if fluids:
+        out.line(fluids)
     out.line()
     out.line(res.table())
     if args.budget:
@@ -879,6 +896,7 @@ def _cmd_log(args, out: _Out) -> int:
         n = max(0, len(list(csv.reader(io.StringIO(text)))) - 1)
         if args.csv == "-":
             out.stdout.write(text)
+            out.cautioned = True  # the CSV is data for another program: no caution in it
         elif out.as_json:
             out.json({"file": args.csv, "rows": n})
         else:
@@ -965,7 +983,10 @@ def main(
                 getattr(args, "json", False),
                 getattr(args, "progress", False),
             )
-            return _COMMANDS[args.command](args, out)
+            code = _COMMANDS[args.command](args, out)
+            if code == EXIT_OK and not out.cautioned and not out.as_json:
+                out.line(CAUTION_LINE)  # every command's text output ends with it
+            return code
         except CapbenchError as exc:
             # one line: a message quoting a file's text may hold line breaks
             stderr.write(f"capbench: error: {_one_line(exc)}\n")

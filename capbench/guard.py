@@ -28,6 +28,7 @@ from uncertainties.core import AffineScalarFunc
 
 from . import validate as v
 from .capacitance import Solution, solve
+from .cautions import EDGE
 from .errors import InputError, SolverError
 from .geometry import (
     Plate,
@@ -55,11 +56,7 @@ AIR_BREAKDOWN = 3e6
 #: what a verdict compares against the target
 BASES = ("formula", "bare")
 
-SAFETY_NOTE = (
-    "Fields at electrode edges can start partial discharge or breakdown. These figures "
-    "are estimates from an ideal geometry; follow your local electrical-safety codes, "
-    "your laboratory's procedures and licensed practice for every energised test."
-)
+SAFETY_NOTE = EDGE
 
 
 # --------------------------------------------------------------------------- formula

@@ -29,20 +29,14 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
+from .cautions import ELECTRICAL
 from .errors import InputError
 from .geometry import Fixture
 
 #: lines of monospaced text on one PDF page
 PDF_LINES_PER_PAGE = 78
 
-CAUTION = (
-    "Caution: capacitance bridges, LCR meters and test fixtures can carry high voltage, "
-    "and the field at electrode edges can start partial discharge or breakdown in air "
-    "and in specimens. capbench computes fields and permittivities from an idealised "
-    "geometry; it does not make a set-up safe. Follow your local electrical-safety "
-    "codes, your laboratory's procedures and licensed practice for every energised "
-    "measurement."
-)
+CAUTION = ELECTRICAL
 
 REFERENCES = {
     "gum": "JCGM 100:2008, Evaluation of measurement data - Guide to the expression of "

@@ -42,6 +42,7 @@ import pint
 
 from . import files, rigs
 from . import validate as v
+from .cautions import ELECTRICAL
 from .errors import CapbenchError, FileFormatError, InputError
 from .geometry import Fixture
 from .uncertainty import AccuracySpec, type_a, type_b
@@ -1401,12 +1402,7 @@ def markdown_summary(
 
 
 #: the caution every page shows
-SAFETY = (
-    "Bridges and test fixtures can carry high voltage, and the field at electrode edges "
-    "can start partial discharge or breakdown. capbench computes fields; it does not make "
-    "a set-up safe. Follow your local electrical-safety codes, your laboratory's "
-    "procedures and licensed practice for every energised measurement."
-)
+SAFETY = ELECTRICAL
 
 
 # --------------------------------------------------------------------------- figures
