@@ -769,7 +769,7 @@ def results(extraction: Any, coverage: float = 0.95) -> dict:
     loss = extraction.points[0].tan_delta is not None
     header = ["frequency", "eps'", "U(eps')", "k", "closed form", "correction"]
     if loss:
-        header += ["tan delta", "U(tan delta)", "k"]
+        header += ["eps''", "U(eps'')", "tan delta", "U(tan delta)", "k"]
     rows = []
     data = []
     for p in extraction.points:
@@ -795,9 +795,13 @@ def results(extraction: Any, coverage: float = 0.95) -> dict:
         if loss:
             Ul, kl = p.loss_budget.expanded(p=coverage)
             tv, tU = _fmt_u(p.tan_delta.n, Ul)
-            row += [tv, tU, f"{kl:.2f}"]
+            U_loss = kl * p.eps_loss.s  # the k of tan delta's budget (same inputs)
+            lv, lU = _fmt_u(p.eps_loss.n, U_loss)
+            row += [lv, lU, tv, tU, f"{kl:.2f}"]
             item.update(
                 eps_loss=p.eps_loss.n,
+                u_eps_loss=p.eps_loss.s,
+                U_eps_loss=U_loss,
                 tan_delta=p.tan_delta.n,
                 u_tan_delta=p.tan_delta.s,
                 U_tan_delta=Ul,
