@@ -1,4 +1,5 @@
-"""The installed capbench version, read without importing the package's ``__init__``."""
+"""The installed version, in a module of its own so that report and store need not
+import the package's __init__ (and everything it imports) to stamp it."""
 
 from importlib.metadata import PackageNotFoundError, version
 

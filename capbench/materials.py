@@ -135,6 +135,14 @@ class Material:
     u_note: str = "assigned by capbench, not from the source"
     formula: Callable[[Any], Any] | None = None
 
+    @property
+    def hazard(self) -> str:
+        """The caution for handling this material ('' where none is listed): several
+        reference liquids are flammable or toxic (capbench.cautions.FLUIDS)."""
+        from .cautions import for_fluids
+
+        return for_fluids([self.key])
+
     def at(self, temperature: Any = None) -> Any:
         """The permittivity at ``temperature`` (default: the reference temperature), as
         a value with uncertainty: the value's own standard uncertainty is an input named

@@ -1,8 +1,8 @@
 """capbench.materials against its sources.
 
 * Water: C. G. Malmberg and A. A. Maryott, "Dielectric constant of water from 0 to 100 C",
-  J. Res. NBS 56, 1 (1956): 80.10 at 20 degC and 78.30 at 25 degC (table values as
-  listed in the project's reference notes; from memory otherwise).
+  J. Res. NBS 56, 1 (1956): 80.10 at 20 degC and 78.30 at 25 degC (the table values
+  from memory).
 * Air: E. K. Smith and S. Weintraub, Proc. IRE 41, 1035 (1953): N = (77.6/T)(p + 4810
   e/T); dry air at 20 degC, 101.325 kPa: eps = 1.000536; humidity moves it by ~1e-4.
 * Liquids: CRC Handbook of Chemistry and Physics, permittivity of liquids (from memory):
