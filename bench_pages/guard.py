@@ -116,7 +116,7 @@ if kept and kept[0] == fx:
     for b in (comp.guarded, comp.unguarded):
         if b is None:
             continue
-        st.markdown(f"**{b.label}**")
+        st.markdown(f"**{state.as_text(b.label)}**")
         st.dataframe(pd.DataFrame(wb.breakdown_rows(b)), hide_index=True)
         if b.standard is not None:
             st.caption(

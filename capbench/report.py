@@ -29,20 +29,14 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
+from .cautions import ELECTRICAL
 from .errors import InputError
 from .geometry import Fixture
 
 #: lines of monospaced text on one PDF page
 PDF_LINES_PER_PAGE = 78
 
-CAUTION = (
-    "Caution: capacitance bridges, LCR meters and test fixtures can carry high voltage, "
-    "and the field at electrode edges can start partial discharge or breakdown in air "
-    "and in specimens. capbench computes fields and permittivities from an idealised "
-    "geometry; it does not make a set-up safe. Follow your local electrical-safety "
-    "codes, your laboratory's procedures and licensed practice for every energised "
-    "measurement."
-)
+CAUTION = ELECTRICAL
 
 REFERENCES = {
     "gum": "JCGM 100:2008, Evaluation of measurement data - Guide to the expression of "
@@ -402,10 +396,7 @@ class Report:
             elif fmt == "json":
                 _atomic_write(path, self.json(figures=True))
             elif fmt == "pdf":
-                path.parent.mkdir(parents=True, exist_ok=True)
-                tmp = path.with_name(f".{path.name}.part")
-                tmp.write_bytes(self.pdf())
-                tmp.replace(path)
+                _atomic_write(path, self.pdf())
             else:
                 raise InputError(f"report format {fmt!r}; valid: html, pdf, json", value=fmt)
             out.append(str(path))
@@ -509,6 +500,10 @@ _CSS = (
 # --------------------------------------------------------------------------- build
 
 
+#: what a measurement record holds: who measured what, where, with what and when
+RECORD_FIELDS = ("lab", "bench", "operator", "specimen", "instrument", "date of measurement")
+
+
 def build(
     fixture: Fixture | None = None,
     *,
@@ -521,6 +516,7 @@ def build(
     lab: str | None = None,
     operator: str | None = None,
     specimen_id: str | None = None,
+    record: Mapping[str, str] | None = None,
     notes: str = "",
     coverage: float = 0.95,
     rtol: float = 1e-6,
@@ -547,6 +543,10 @@ def build(
         A guard-ring check to include.
     comparison : Comparison, optional
         A measured-against-ideal breakdown to include.
+    record : mapping of str to str, optional
+        The measurement record as entered on the page (keys ``lab``, ``bench``,
+        ``operator``, ``specimen``, ``instrument``, ``date of measurement``); a value
+        given here replaces the measurement file's, an empty one leaves it out.
     title, lab, operator, specimen_id, notes : str, optional
         Override or add to the metadata.
     coverage : float
@@ -568,7 +568,7 @@ def build(
     InputError
         When nothing to report is given, or an argument has the wrong type.
     """
-    from . import __version__
+    from ._version import __version__
     from .capacitance import Solution
     from .extract import Extraction
 
@@ -613,6 +613,10 @@ def build(
         meta["fixture"] = fixture.name
     if extraction is not None:
         meta["method"] = extraction.method
+    for key, value in (record or {}).items():
+        if key not in RECORD_FIELDS:
+            raise InputError(f"record field {key!r}; valid: {', '.join(RECORD_FIELDS)}", value=key)
+        meta[key] = str(value).strip()
     if notes:
         meta["notes"] = notes
     meta = {k: v for k, v in meta.items() if v}
@@ -703,7 +707,13 @@ def build(
             )
     if extraction is not None:
         fig = extraction.plot()
-        figures.append(("result", "Result against frequency (error bars k = 2)", _figure_png(fig)))
+        figures.append(
+            (
+                "result",
+                "Result against frequency (error bars: expanded uncertainty, 95 % coverage)",
+                _figure_png(fig),
+            )
+        )
         _close(fig)
     return Report(content, tuple(figures))
 
@@ -717,9 +727,9 @@ def _png(func, obj) -> bytes:
 
 
 def _close(fig) -> None:
-    import matplotlib.pyplot as plt
-
-    plt.close(fig)
+    """Release a figure's canvas memory (figures here are made without pyplot, so
+    there is no pyplot registry to close them in)."""
+    fig.clear()
 
 
 def _plot_solution(fixture: Fixture, extraction: Any):
@@ -759,7 +769,7 @@ def results(extraction: Any, coverage: float = 0.95) -> dict:
     loss = extraction.points[0].tan_delta is not None
     header = ["frequency", "eps'", "U(eps')", "k", "closed form", "correction"]
     if loss:
-        header += ["tan delta", "U(tan delta)", "k"]
+        header += ["eps''", "U(eps'')", "tan delta", "U(tan delta)", "k"]
     rows = []
     data = []
     for p in extraction.points:
@@ -785,9 +795,13 @@ def results(extraction: Any, coverage: float = 0.95) -> dict:
         if loss:
             Ul, kl = p.loss_budget.expanded(p=coverage)
             tv, tU = _fmt_u(p.tan_delta.n, Ul)
-            row += [tv, tU, f"{kl:.2f}"]
+            U_loss = kl * p.eps_loss.s  # the k of tan delta's budget (same inputs)
+            lv, lU = _fmt_u(p.eps_loss.n, U_loss)
+            row += [lv, lU, tv, tU, f"{kl:.2f}"]
             item.update(
                 eps_loss=p.eps_loss.n,
+                u_eps_loss=p.eps_loss.s,
+                U_eps_loss=U_loss,
                 tan_delta=p.tan_delta.n,
                 u_tan_delta=p.tan_delta.s,
                 U_tan_delta=Ul,

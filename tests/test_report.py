@@ -160,3 +160,19 @@ def test_readings_table_shows_the_new_columns(name, columns):
     assert len(table["rows"]) == len(m.readings)
     if m.method == "two_fluid":
         assert "cyclohexane, eps_r 2.0193" in report._inputs(m)["fluid 2"]
+
+
+def test_eps_loss_is_a_first_class_result_with_its_expanded_uncertainty():
+    """eps'' and U(eps'') in the results table and the JSON points (issue 21); U(eps'') =
+    k u(eps'') with the k of tan delta's budget, so U(eps'') / eps'' = U(tan d) / tan d to
+    first order where eps' is far better known than the loss."""
+    m = files.read_measurement(
+        Path(__file__).resolve().parents[1] / "fixtures" / "quillfield" / "qf-pe-03.toml"
+    )
+    data = report.results(m.extract(fem=False))
+    assert "eps''" in data["header"] and "U(eps'')" in data["header"]
+    p = data["points"][0]
+    assert p["U_eps_loss"] == pytest.approx(p["k_tan_delta"] * p["u_eps_loss"], rel=1e-12)
+    assert p["U_eps_loss"] / p["eps_loss"] == pytest.approx(
+        p["U_tan_delta"] / p["tan_delta"], rel=0.05
+    )
