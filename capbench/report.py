@@ -321,19 +321,6 @@ class Report:
 
     # ------------------------------------------------------------------ PDF
 
-    def pdf_plan(self) -> list[str]:
-        """What each PDF page holds, in order: "summary", "figures", one
-        "budget: <name>" per budget (continued pages repeat it), "details"."""
-        plan = ["summary"]
-        if self.figures:
-            plan.append("figures")
-        for b in self.content.get("budgets", []):
-            n = len(b["rows"]) + 6
-            plan += [f"budget: {b['name']}"] * max(1, math.ceil(n / PDF_LINES_PER_PAGE))
-        details = sum(len(lines) + 3 for _h, lines in self._detail_sections())
-        plan += ["details"] * max(1, math.ceil(details / PDF_LINES_PER_PAGE))
-        return plan
-
     def _detail_sections(self) -> list[tuple[str, list[str]]]:
         skip = ("Summary", "Result", "Field solution", "Caution")
         return [
@@ -343,32 +330,11 @@ class Report:
         ]
 
     def pdf(self) -> bytes:
-        """The report as PDF bytes (matplotlib's PDF backend, TrueType text)."""
-        import matplotlib
-        from matplotlib.backends.backend_pdf import PdfPages
-        from matplotlib.figure import Figure
+        """The report as a typeset PDF (A4, reportlab): the result statement whole on
+        the first page, tables sized to the text area, figures scaled to its width."""
+        from .report_pdf import render
 
-        sections = dict(self.text_sections())
-        pages: list[list[tuple[str, list[str]]]] = []
-        first = [("Summary", sections["Summary"])]
-        for key in ("Result", "Field solution", "Caution"):
-            if key in sections:
-                first.append((key, sections[key]))
-        pages.append(first)
-        budget_pages = []
-        for h, lines in self.text_sections():
-            if h.startswith("Uncertainty budget"):
-                budget_pages += _paginate([(h, lines)])
-        detail_pages = _paginate(self._detail_sections())
-        buf = io.BytesIO()
-        with matplotlib.rc_context({"pdf.fonttype": 42, "font.family": "DejaVu Sans"}):
-            with PdfPages(buf, metadata={"Title": self.title, "Creator": "capbench"}) as pdf:
-                pdf.savefig(_text_page(self.title, pages[0], Figure))
-                if self.figures:
-                    pdf.savefig(self._figure_page(Figure))
-                for page in budget_pages + detail_pages:
-                    pdf.savefig(_text_page(self.title, page, Figure))
-        return buf.getvalue()
+        return render(self)
 
     def _figure_page(self, Figure):
         import matplotlib.image as mpimg

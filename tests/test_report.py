@@ -95,25 +95,49 @@ def test_json_carries_the_library_numbers(rep, extraction):
     assert all(len(f["png_base64"]) > 1000 for f in with_png["figures"])
 
 
-def test_pdf_pages_and_text(rep, extraction):
+def test_pdf_is_typeset_inside_its_text_area(rep, extraction):
+    """Issue 14: a PDF a lab can sign: the result statement whole on page 1, every string
+    drawn inside the text area (A4 less 20 mm margins; a string that ran off the page was
+    the complaint), the budgets and the references present."""
     pypdf = pytest.importorskip("pypdf")
+    from reportlab.pdfbase.pdfmetrics import stringWidth
+
+    from capbench.report_pdf import MARGIN
+
     data = rep.pdf()
     assert data.startswith(b"%PDF")
     reader = pypdf.PdfReader(io.BytesIO(data))
-    # summary, figures, one page per budget (eps' and tan delta at each frequency), details
-    expected = 1 + 1 + 2 * len(extraction) + 1
-    assert len(reader.pages) == expected == len(rep.pdf_plan())
+    width, height = 595.2756, 841.8898  # A4 in points
+    outside = []
+    for n, page in enumerate(reader.pages):
+
+        def visit(text, cm, tm, font, size, n=n):
+            if not text.strip():
+                return
+            x = cm[0] * tm[4] + cm[2] * tm[5] + cm[4]
+            y = cm[1] * tm[4] + cm[3] * tm[5] + cm[5]
+            # the run's end from the font's own metrics (reportlab's standard fonts)
+            name = str((font or {}).get("/BaseFont", "/Helvetica")).lstrip("/")
+            try:
+                w = stringWidth(text.rstrip(), name, size)
+            except KeyError:  # a font reportlab has no metrics for: 0.6 em a character
+                w = 0.6 * size * len(text.rstrip())
+            end = x + w * abs(cm[0] or 1)
+            if x < MARGIN - 1 or end > width - MARGIN + 1 or not (MARGIN - 12 < y < height):
+                outside.append((n, round(x), round(end), round(y), text[:30]))
+
+        page.extract_text(visitor_text=visit)
+    assert not outside, outside[:5]
     first = reader.pages[0].extract_text()
     p = extraction[0]
     U, _k = p.budget.expanded(p=0.95)
     decimals = 1 - math.floor(math.log10(U))
     assert f"eps' at 100 Hz = {p.eps_r.n:.{decimals}f} +- {U:.{decimals}f}" in first
     assert "QF-PE-03" in first and "Caution" in first
-    budget_page = reader.pages[2].extract_text()
-    assert "Uncertainty budget: eps_r' at 100 Hz" in budget_page
-    assert "micrometer calibration" in budget_page
-    last = reader.pages[-1].extract_text()
-    assert "References" in last and "JCGM 100:2008" in last and "capbench" in last
+    text = " ".join(pg.extract_text() for pg in reader.pages)
+    assert "Uncertainty budget: eps_r' at 100 Hz" in text
+    assert "micrometer calibration" in text
+    assert "References" in text and "JCGM 100:2008" in text and "capbench" in text
 
 
 def test_write_all_forms(rep, tmp_path):
