@@ -835,6 +835,8 @@ def _cmd_report(args, out: _Out) -> int:
 
 
 def _cmd_log(args, out: _Out) -> int:
+    from .units import frequency_text
+
     with _open_log(args) as log:
         if args.action == "list":
             entries = log.entries(specimen=args.specimen, limit=args.limit)
@@ -885,7 +887,7 @@ def _cmd_log(args, out: _Out) -> int:
                 )
             out.line(f"{len(e.results)} results:")
             for r in e.results:
-                f = "-" if r["frequency"] is None else f"{r['frequency']:g} Hz"
+                f = "-" if r["frequency"] is None else frequency_text(r["frequency"])
                 out.line(
                     f"  {f:>12}  eps' {r['eps_r']:.6g} +- {r['expanded_eps_r']:.2g} "
                     f"(k = {r['k_eps_r']:.2f})"

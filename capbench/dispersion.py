@@ -38,7 +38,7 @@ from typing import Any
 import numpy as np
 
 from .errors import ExtractionError, InputError
-from .units import EPS0
+from .units import EPS0, frequency_text
 
 #: the relaxation functions: name -> which of alpha, beta are free
 MODELS = {
@@ -328,7 +328,7 @@ class KKCheck:
         verdict = "consistent" if self.consistent else "NOT consistent"
         return (
             f"Kramers-Kronig check (linear test, Boukamp 1995): {verdict}; largest residual "
-            f"{abs(self.z[worst]):.2g} standard uncertainties ({part} at {f:.6g} Hz), "
+            f"{abs(self.z[worst]):.2g} standard uncertainties ({part} at {frequency_text(f)}), "
             f"limit {self.limit:g}"
         )
 

@@ -92,7 +92,7 @@ from .uncertainty import (
     monte_carlo,
     si_value,
 )
-from .units import EPS0, Q_
+from .units import EPS0, Q_, frequency_text
 from .validate import CapbenchWarning
 
 #: the range a permittivity root must lie in
@@ -1081,7 +1081,7 @@ class Extraction:
         title = f"{self.method}: FEM-corrected" if self.fem else self.method
         lines = [f"{title} (expanded uncertainties, 95 % coverage)", head]
         for p in self.points:
-            f = "-" if p.frequency is None else f"{p.frequency:.6g} Hz"
+            f = "-" if p.frequency is None else frequency_text(p.frequency)
             U, k = p.expanded("eps_r")
             row = (
                 f"{f:>12} {p.eps_r.n:>10.6f} {U:>9.2g} {k:>5.2f} {p.eps_r_ideal.n:>10.6f} "
@@ -1264,7 +1264,7 @@ def _point(
     solved: _Solved | None = None,
 ) -> Point:
     re = eps_u.re
-    where = f" at {freq:.6g} Hz" if freq is not None else ""
+    where = f" at {frequency_text(freq)}" if freq is not None else ""
     if not EPS_MIN <= _n(re) <= EPS_MAX:
         raise ExtractionError(
             f"the {label} readings{where} give eps_r = {_shown(_n(re))}, outside {EPS_MIN:g} to "

@@ -91,12 +91,9 @@ def _fmt_u(value: float, U: float) -> tuple[str, str]:
 
 
 def _hz(f: float | None) -> str:
-    if f is None:
-        return "-"
-    for scale, unit in ((1e9, "GHz"), (1e6, "MHz"), (1e3, "kHz")):
-        if f >= scale:
-            return f"{f / scale:g} {unit}"
-    return f"{f:g} Hz"
+    from .units import frequency_text
+
+    return "-" if f is None else frequency_text(f)
 
 
 def _param_text(key: str, value: Any) -> str:

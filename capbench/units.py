@@ -279,3 +279,12 @@ def fmt(q: pint.Quantity | float, unit: str | None = None, digits: int = 6) -> s
             q = q.to(unit)
         return f"{q.magnitude:.{digits}g} {q.units:~P}"
     return f"{q:.{digits}g}" + (f" {unit}" if unit else "")
+
+
+def frequency_text(hz: float) -> str:
+    """A frequency as the trade writes it: "100 Hz", "1 kHz", "2.5 MHz" (never
+    "1e+06 Hz"); six significant digits at most."""
+    for unit, scale in (("GHz", 1e9), ("MHz", 1e6), ("kHz", 1e3)):
+        if abs(hz) >= scale:
+            return f"{hz / scale:.6g} {unit}"
+    return f"{hz:.6g} Hz"

@@ -387,7 +387,7 @@ def test_extract_micrometer_closed_form_and_the_log(tmp_path):
 def test_extract_two_fluid_closed_form_text():
     code, out, err = run("extract", TWO_FLUID, "--closed-form")
     assert code == 0, err
-    assert "QF-PMMA-02" in out and "two fluid" in out and "1000 Hz" in out
+    assert "QF-PMMA-02" in out and "two fluid" in out and "1 kHz" in out
 
 
 @pytest.mark.slow

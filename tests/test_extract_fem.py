@@ -147,7 +147,7 @@ def test_budget_shares_sum_to_one(contacting_result):
             assert b.shares_total == pytest.approx(1.0, abs=1e-12)
             assert b.correlation_share == 0.0
     text = res.table()
-    assert "tan delta" in text and "1000 Hz" in text
+    assert "tan delta" in text and "1 kHz" in text
     arrays = res.arrays()
     assert arrays["eps_r"].shape == (3,) and np.all(arrays["u_tan_delta"] > 0)
 
