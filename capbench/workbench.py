@@ -46,7 +46,7 @@ from .cautions import ELECTRICAL
 from .errors import CapbenchError, FileFormatError, InputError
 from .geometry import Fixture
 from .uncertainty import AccuracySpec, type_a, type_b
-from .units import NUMBER_PATTERN, Q_, parse_quantity, to_si
+from .units import NUMBER_PATTERN, Q_, frequency_text, parse_quantity, to_si
 
 #: largest readings table accepted from the page (bytes); a bench table is a few kB
 MAX_TABLE_BYTES = 1_000_000
@@ -76,14 +76,6 @@ def compact(x: float, digits: int = 6) -> str:
     if x is None or not math.isfinite(x):
         return "-"
     return f"{x:.{digits}g}".replace("e+0", "e+").replace("e-0", "e-")
-
-
-def frequency_text(hz: float) -> str:
-    """A frequency in Hz, kHz, MHz or GHz ("1 kHz", "2.5 MHz")."""
-    for unit, scale in (("GHz", 1e9), ("MHz", 1e6), ("kHz", 1e3)):
-        if abs(hz) >= scale:
-            return f"{compact(hz / scale)} {unit}"
-    return f"{compact(hz)} Hz"
 
 
 def with_uncertainty(x: float, u: float, digits_u: int = 2, power: int | None = None) -> str:
