@@ -70,6 +70,8 @@ st.caption(
 )
 if st.button("Prepare the report", type="primary", key="report.build"):
     with state.shielded("Report"), st.spinner("Writing the report (plots and PDF)..."):
+        if sol is None and res is not None:
+            sol = res.solution()  # the field plot's solve: the page's, not the report's
         rep = report.build(
             res.fixture if res is not None else fx,
             extraction=res,

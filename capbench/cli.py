@@ -785,7 +785,13 @@ def _cmd_report(args, out: _Out) -> int:
         m = read_measurement(args.file, allow_outside=args.allow_outside)
         out.status(f"extracting {m.specimen_id} ({m.method})")
         res = m.extract(rtol=args.rtol)
-        rep = report.build(measurement=m, extraction=res, operator=args.operator or None)
+        out.status("solving the fixture at the result for the field plot")
+        rep = report.build(
+            measurement=m,
+            extraction=res,
+            solution=res.solution(),
+            operator=args.operator or None,
+        )
         if args.log:
             with _open_log(args) as log:
                 entry = log.log_extraction(

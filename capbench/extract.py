@@ -79,7 +79,7 @@ from uncertainties.core import AffineScalarFunc
 
 from . import validate
 from .capacitance import solve
-from .errors import ExtractionError, GeometryError, InputError
+from .errors import CapbenchError, ExtractionError, GeometryError, InputError
 from .geometry import MEDIUM, Fixture
 from .rigs import Specimen
 from .uncertainty import (
@@ -1069,6 +1069,21 @@ class Extraction:
             out["u_tan_delta"] = np.array([p.tan_delta.s for p in self.points])
             out["U_tan_delta"] = np.array([p.expanded("tan_delta")[0] for p in self.points])
         return out
+
+    def solution(self, rtol: float = 1e-4) -> Any:
+        """The fixture solved at the extracted eps' of the first point (a picture of the
+        field the result stands on: ``rtol`` 1e-4 by default); None where it cannot be
+        solved. What a report's field plot shows; the report itself never solves."""
+        from threadpoolctl import threadpool_limits
+
+        fx = self.fixture
+        if fx.specimen is not None:
+            fx = fx.with_permittivity(fx.specimen, float(self.points[0].eps_r.n))
+        try:
+            with threadpool_limits(limits=1, user_api="blas"):
+                return solve(fx, rtol=rtol)
+        except CapbenchError:
+            return None
 
     def table(self) -> str:
         """eps'(f) and tan delta(f) with their expanded uncertainties for 95 % coverage

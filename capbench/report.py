@@ -493,13 +493,11 @@ def build(
     fixture : Fixture, optional
         The fixture; default the measurement's, the extraction's or the solution's.
     extraction : Extraction, optional
-        Result of :mod:`capbench.extract` (permittivity, loss, budgets). With a
-        ``measurement`` and no extraction, the measurement is extracted here
-        (:meth:`capbench.files.Measurement.extract` at ``rtol``).
+        Result of :mod:`capbench.extract` (permittivity, loss, budgets); required with a
+        ``measurement`` (a report lays out results, it never solves or extracts).
     solution : Solution, optional
-        A solved fixture for the field plot and the solution summary; without one the
-        fixture is solved here for the plot (rtol 1e-4: a drawing), at the extracted
-        eps' when there is an extraction.
+        A solved fixture for the field plot and the solution summary (e.g.
+        :meth:`capbench.extract.Extraction.solution`); without one there is no field plot.
     measurement : Measurement, optional
         The measurement file's contents: lab, operator, specimen, readings, conditions.
     guard : GuardCheck, optional
@@ -516,7 +514,7 @@ def build(
         Coverage probability of the expanded uncertainties (k from the t distribution
         with the effective degrees of freedom).
     rtol : float
-        Accuracy of the extraction when it is run here.
+        Unused (kept for callers of earlier versions; reports no longer extract).
     field_plot : bool
         Include the potential and field-line plot.
     created : str, optional
@@ -541,7 +539,10 @@ def build(
             value=coverage,
         )
     if measurement is not None and extraction is None:
-        extraction = measurement.extract(rtol=rtol)
+        raise InputError(
+            "report.build lays out results and never solves: pass the measurement's "
+            "extraction too (extraction=measurement.extract())"
+        )
     for name, value, cls in (
         ("extraction", extraction, Extraction),
         ("solution", solution, Solution),
@@ -655,7 +656,7 @@ def build(
             )
         )
     if field_plot and fixture is not None:
-        sol = solution or _plot_solution(fixture, extraction)
+        sol = solution  # the caller solves (Extraction.solution()); a report never does
         if sol is not None:
             from .plots import potential_map
 
@@ -693,24 +694,6 @@ def _close(fig) -> None:
     """Release a figure's canvas memory (figures here are made without pyplot, so
     there is no pyplot registry to close them in)."""
     fig.clear()
-
-
-def _plot_solution(fixture: Fixture, extraction: Any):
-    from threadpoolctl import threadpool_limits
-
-    from .capacitance import solve
-    from .errors import CapbenchError
-
-    fx = fixture
-    if extraction is not None:
-        fx = extraction.fixture
-        if fx.specimen is not None:
-            fx = fx.with_permittivity(fx.specimen, float(extraction.points[0].eps_r.n))
-    try:
-        with threadpool_limits(limits=1, user_api="blas"):
-            return solve(fx, rtol=1e-4)
-    except CapbenchError:
-        return None  # a report without the field plot, rather than no report
 
 
 def _solution_summary(sol: Any) -> dict[str, str]:

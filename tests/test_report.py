@@ -34,6 +34,7 @@ def rep(measurement, extraction):
     return report.build(
         measurement=measurement,
         extraction=extraction,
+        solution=extraction.solution(),
         operator="R. Quill (invented)",
         created="2024-03-15T09:00:00+00:00",
     )
@@ -200,3 +201,20 @@ def test_eps_loss_is_a_first_class_result_with_its_expanded_uncertainty():
     assert p["U_eps_loss"] / p["eps_loss"] == pytest.approx(
         p["U_tan_delta"] / p["tan_delta"], rel=0.05
     )
+
+
+def test_a_report_never_solves(measurement, extraction, monkeypatch):
+    """Issue 14: documents are pure functions of results. build() refuses a measurement
+    without its extraction, and with no solution it draws no field plot rather than
+    solving for one (any solve here would fail the test)."""
+    import capbench.capacitance as cc
+
+    def refuse(*a, **k):
+        raise AssertionError("report.build solved")
+
+    monkeypatch.setattr(cc, "solve", refuse)
+    with pytest.raises(cb.InputError, match="never solves"):
+        report.build(measurement=measurement)
+    rep = report.build(measurement=measurement, extraction=extraction)
+    names = [f["name"] for f in json.loads(rep.json())["figures"]]
+    assert "field" not in names and "result" in names
