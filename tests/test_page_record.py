@@ -58,3 +58,17 @@ def test_a_result_is_not_shown_under_a_changed_fixture():
     at.text_input(key="fixture.guarded_cell.guard_gap").set_value("0.5 mm").run()
     go(at, "extract")
     assert any(m.label.startswith("eps'") for m in at.metric)
+
+
+def test_the_guard_page_takes_the_users_cell_not_the_demos_reading():
+    """Issue 14: the guard page kept the demo's eps and reading under a user's fixture."""
+    at = go(start(), "guard")
+    assert at.text_input(key="compare.measured").value == "20.6133 pF"  # the demo's own
+    go(at, "fixture")
+    at.text_input(key="fixture.guarded_cell.guard_gap").set_value("0.3 mm")
+    at.text_input(key="fixture.guarded_cell.specimen_eps_r").set_value("3.7").run()
+    go(at, "guard")
+    assert at.text_input(key="compare.measured").value == ""
+    assert at.text_input(key="guard.eps").value == "3.7"
+    assert not errors(at)
+    assert at.button(key="compare.run").disabled
