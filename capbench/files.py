@@ -1081,6 +1081,9 @@ def read_readings(path: str | os.PathLike) -> tuple[Reading, ...]:
     return readings_from_csv(text, source=path.name)
 
 
+_DECIMAL_COMMA = re.compile(r"\s*[-+]?(?:\d+,\d*|,\d+)(?:[eE][-+]?\d+)?\s*")
+
+
 def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, ...]:
     """Read a readings table from CSV text (see :func:`read_readings`)."""
     numbered = []
@@ -1115,11 +1118,15 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
             file=source,
         )
     rows = []
+    # a table saved where the decimal mark is a comma: semicolons between cells (in the
+    # header and no comma there) and "20,613" read as 20.613
+    header_text = numbered[0][1]
+    semicolons = ";" in header_text and "," not in header_text
     for i, ln in numbered:
         # one line, one row: a quoted cell may not run on to the next line (the row
         # count would no longer match the line numbers the messages give)
         try:
-            parsed = list(csv.reader([ln], strict=True))
+            parsed = list(csv.reader([ln], strict=True, delimiter=";" if semicolons else ","))
         except csv.Error as exc:
             raise _error(
                 f"{source}, line {i}: not a valid CSV row ({exc}); write one reading per line, "
@@ -1134,6 +1141,10 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
                 file=source,
                 line=i,
             )
+        if semicolons:
+            parsed[0] = [
+                c.replace(",", ".") if _DECIMAL_COMMA.fullmatch(c) else c for c in parsed[0]
+            ]
         rows.append(parsed[0])
     header_line = numbered[0][0]
     columns = []

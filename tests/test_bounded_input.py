@@ -176,3 +176,12 @@ def test_a_page_box_with_a_huge_number_is_refused_at_once(text):
 
     with pytest.raises(CapbenchError):
         wb.parse_value(text, "Guard gap", "length", limits="length")
+
+
+def test_a_semicolon_table_with_decimal_commas_reads_as_the_same_numbers():
+    """Issue 21: a table saved where the decimal mark is a comma (cells separated by
+    semicolons) gave "'Hz];capacitance [pF];...' is not a unit of frequency"; it now reads
+    to exactly the numbers of its comma-separated twin."""
+    semi = "frequency [kHz];capacitance [pF];dissipation factor\n1;20,613;0,000254\n10;20,6;3e-4\n"
+    plain = "frequency [kHz],capacitance [pF],dissipation factor\n1,20.613,0.000254\n10,20.6,3e-4\n"
+    assert files.readings_from_csv(semi) == files.readings_from_csv(plain)
