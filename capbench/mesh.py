@@ -418,16 +418,17 @@ def _weld(pieces: list[_Piece], tol: float) -> list[_Piece]:
         if ri != rj:
             parent[max(ri, rj)] = min(ri, rj)
     is_arc = np.repeat([isinstance(pc.edge, Arc) for pc in pieces], 2)
-    rep: dict[int, tuple[float, float]] = {}
+    # cluster -> (its point, whether an arc gave it); an arc's end wins
+    rep: dict[int, tuple[tuple[float, float], bool]] = {}
     for k in range(len(pts)):
         r = root(k)
-        if r not in rep or (is_arc[k] and not is_arc[r] and rep[r] == tuple(pts[r])):
-            rep[r] = (float(pts[k][0]), float(pts[k][1]))
+        if r not in rep or (is_arc[k] and not rep[r][1]):
+            rep[r] = ((float(pts[k][0]), float(pts[k][1])), bool(is_arc[k]))
     out = []
     for n, pc in enumerate(pieces):
         e = pc.edge
         if isinstance(e, Line):
-            a, b = rep[root(2 * n)], rep[root(2 * n + 1)]
+            a, b = rep[root(2 * n)][0], rep[root(2 * n + 1)][0]
             if a != e.a or b != e.b:
                 pc = _Piece(Line(a, b), pc.conductors, pc.ground, pc.box, pc.owners, pc.axis)
         out.append(pc)

@@ -164,27 +164,8 @@ class Report:
             out.append(("Field solution", [f"{k}: {v}" for k, v in s.items()]))
         out.append(("Caution", _wrap(c["caution"])))
         for b in c.get("budgets", []):
-            head = ["input", "value", "u(x)", "distribution", "type", "dof", "c", "c u(x)", "share"]
-            rows = [
-                [
-                    r["input"][:34],
-                    _unit(f"{r['value']:.7g}", r),
-                    _unit(f"{r['u']:.3g}", r),
-                    r["distribution"],
-                    r["type"],
-                    r["dof"],
-                    f"{r['sensitivity']:.3g}",
-                    f"{r['contribution']:.3g}",
-                    f"{100 * r['share']:.2f} %",
-                ]
-                for r in b["rows"]
-            ]
-            lines = _columns(head, rows)
-            lines.append(
-                f"u_c = {b['u']:.3g}; effective dof = {b['dof']}; U = {b['U']:.3g} "
-                f"(k = {b['k']:.3f}, {b['coverage']})"
-            )
-            out.append((f"Uncertainty budget: {b['name']}", lines))
+            head, rows, summary = budget_table(b, input_width=34)
+            out.append((f"Uncertainty budget: {b['name']}", [*_columns(head, rows), summary]))
         if c.get("fixture"):
             f = c["fixture"]
             lines = [f"{f['name']} ({f['kind']}, {f['connection']} capacitance)"]
@@ -434,6 +415,33 @@ def _html_kv(data: Mapping[str, Any]) -> str:
     e = html.escape
     rows = "".join(f"<tr><th>{e(str(k))}</th><td>{e(str(v))}</td></tr>" for k, v in data.items())
     return f'<table class="kv">{rows}</table>'
+
+
+BUDGET_HEADER = ["input", "value", "u(x)", "distribution", "type", "dof", "c", "c u(x)", "share"]
+
+
+def budget_table(b: dict, input_width: int | None = None) -> tuple[list[str], list[list], str]:
+    """One budget of a report's content as (header, rows of text, summary line): what the
+    text and the PDF layouts both show (``input_width`` cuts long input names)."""
+    rows = [
+        [
+            r["input"][:input_width],
+            _unit(f"{r['value']:.7g}", r),
+            _unit(f"{r['u']:.3g}", r),
+            r["distribution"],
+            r["type"],
+            r["dof"],
+            f"{r['sensitivity']:.3g}",
+            f"{r['contribution']:.3g}",
+            f"{100 * r['share']:.2f} %",
+        ]
+        for r in b["rows"]
+    ]
+    summary = (
+        f"u_c = {b['u']:.3g}; effective dof = {b['dof']}; U = {b['U']:.3g} "
+        f"(k = {b['k']:.3f}, {b['coverage']})"
+    )
+    return BUDGET_HEADER, rows, summary
 
 
 def _unit(text: str, row: dict) -> str:

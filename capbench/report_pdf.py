@@ -103,6 +103,8 @@ def render(report: Any) -> bytes:
     from reportlab.lib.units import mm
     from reportlab.platypus import Image, KeepTogether, SimpleDocTemplate, Spacer
 
+    from .report import budget_table
+
     c = report.content
     st = _styles()
     buf = io.BytesIO()
@@ -145,25 +147,7 @@ def render(report: Any) -> bytes:
             KeepTogether([Image(io.BytesIO(png), draw_w, draw_h), _p(caption, st["caption"])])
         )
     for b in c.get("budgets", []):
-        head = ["input", "value", "u(x)", "distribution", "type", "dof", "c", "c u(x)", "share"]
-        rows = [
-            [
-                x["input"],
-                f"{x['value']:.7g}" + (f" {x['unit']}" if x.get("unit") else ""),
-                f"{x['u']:.3g}",
-                x["distribution"],
-                x["type"],
-                x["dof"],
-                f"{x['sensitivity']:.3g}",
-                f"{x['contribution']:.3g}",
-                f"{100 * x['share']:.2f} %",
-            ]
-            for x in b["rows"]
-        ]
-        summary = (
-            f"u_c = {b['u']:.3g}; effective degrees of freedom {b['dof']}; U = {b['U']:.3g} "
-            f"(k = {b['k']:.3f}, {b['coverage']})"
-        )
+        head, rows, summary = budget_table(b)
         story += [
             _p(f"Uncertainty budget: {b['name']}", st["h"]),
             _table(head, rows, width, st),

@@ -152,6 +152,18 @@ class _Slot:
         return iter(self.items[self.start : self.stop])
 
 
+def _float(value: Real, name: str) -> float:
+    """A plain number as a float, refused by name when beyond the float range."""
+    try:
+        return float(value)
+    except OverflowError:  # an integer beyond the float range
+        raise InputError(
+            f"{name} = {echo(value)} is too large to be a number (at most about 1.8e308)",
+            name=name,
+            value=value,
+        ) from None
+
+
 def base_unit(kind: str) -> str:
     """The unit in which capbench holds quantities of ``kind`` internally."""
     return _BASE_UNIT[kind]
@@ -189,14 +201,7 @@ def parse_quantity(value: Any, name: str = "value") -> pint.Quantity:
             ) from None
         return q
     if isinstance(value, Real) and not isinstance(value, bool):
-        try:
-            return Q_(float(value), "")
-        except OverflowError:  # an integer beyond the float range
-            raise InputError(
-                f"{name} = {echo(value)} is too large to be a number (at most about 1.8e308)",
-                name=name,
-                value=value,
-            ) from None
+        return Q_(_float(value, name), "")
     raise InputError(
         f"{name} = {echo(value)} has type {type(value).__name__}; give a number, "
         "a string such as '25 mm', or a pint Quantity",
@@ -216,17 +221,10 @@ def to_si(value: Any, kind: str, name: str = "value") -> float:
     wrong or the number is not finite.
     """
     unit = _BASE_UNIT[kind]
-    if type(value) is float or (isinstance(value, Real) and not isinstance(value, bool)):
+    if isinstance(value, Real) and not isinstance(value, bool):
         # a plain number is already in the base unit: no pint (a quantity costs ~20 us,
         # which a 100,000-row readings table pays several times a row)
-        try:
-            number = float(value)
-        except OverflowError:  # an integer beyond the float range
-            raise InputError(
-                f"{name} = {echo(value)} is too large to be a number (at most about 1.8e308)",
-                name=name,
-                value=value,
-            ) from None
+        number = _float(value, name)
         if not math.isfinite(number):
             raise InputError(
                 f"{name} = {echo(value)} is not a finite number", name=name, value=value

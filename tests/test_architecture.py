@@ -104,3 +104,14 @@ def test_the_command_line_starts_without_the_physics_stack():
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "", f"--help loaded {out.stdout.strip()}"
+
+
+def test_the_public_names_are_one_list():
+    """__init__ keeps three views of the public names for three readers (the lazy table,
+    the literal __all__ that ruff and type checkers read, the TYPE_CHECKING imports):
+    they must name the same things."""
+    import capbench
+
+    assert set(capbench.__all__) == set(capbench._HOME) | {"__version__"}
+    for name in capbench.__all__:
+        assert getattr(capbench, name) is not None, name

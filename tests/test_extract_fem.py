@@ -358,19 +358,29 @@ def test_first_order_film_on_small_discs_within_its_stated_error(radius_mm, monk
     assert abs(first_order - meshed) <= half * abs(first_order - touching)
 
 
-@pytest.fixture(scope="module")
-def two_fluid_case():
-    eps = complex(2.3, -2.3 * 4e-4)
-    e1, e2 = 1.000536, 2.0243
-    true = cb.parallel_discs(radius="20 mm", gap="2 mm", specimen=cb.Specimen("1.5 mm", 2.3))
-    stray = 0.35e-12
+TWO_FLUIDS = (1.000536, 2.0243)  # air and cyclohexane at 20 degC (capbench.materials)
+
+
+def two_fluid_readings(true, eps, stray):
+    """Bench readings of the two-fluid method made by the forward model: the cell alone
+    and with the specimen in each fluid, a lossless stray in parallel (D of the total
+    reading)."""
+    e1, e2 = TWO_FLUIDS
     c1 = reading(true, e1, e1)[0] + stray
     c2 = reading(true, e2, e2)[0] + stray
     r1, d1 = reading(true, eps, e1)
     r2, d2 = reading(true, eps, e2)
-    # the stray capacitance is lossless: D of the total reading
     d1, d2 = d1 * r1 / (r1 + stray), d2 * r2 / (r2 + stray)
-    r1, r2 = r1 + stray, r2 + stray
+    return c1, r1 + stray, c2, r2 + stray, d1, d2
+
+
+@pytest.fixture(scope="module")
+def two_fluid_case():
+    eps = complex(2.3, -2.3 * 4e-4)
+    e1, e2 = TWO_FLUIDS
+    true = cb.parallel_discs(radius="20 mm", gap="2 mm", specimen=cb.Specimen("1.5 mm", 2.3))
+    stray = 0.35e-12
+    c1, r1, c2, r2, d1, d2 = two_fluid_readings(true, eps, stray)
     # the method is given the cell with a nominal (wrong) thickness: it fits it
     nominal = cb.parallel_discs(radius="20 mm", gap="2 mm", specimen=cb.Specimen("1.52 mm", 2.3))
     res = X.two_fluid(
@@ -407,21 +417,16 @@ def test_two_fluid_with_loss_inverts_its_forward_model():
     D150's fluid-displacement procedure, readings from the field solver) to the solve's
     tolerance."""
     eps = complex(11.4, -11.4 * 0.017)
-    e1, e2 = 1.000536, 2.0243
+    e1, e2 = TWO_FLUIDS
     true = cb.parallel_discs(radius="20 mm", gap="2 mm", specimen=cb.Specimen("1.5 mm", 11.4))
-    stray = 0.35e-12
-    c1 = reading(true, e1, e1)[0] + stray
-    c2 = reading(true, e2, e2)[0] + stray
-    r1, d1 = reading(true, eps, e1)
-    r2, d2 = reading(true, eps, e2)
-    d1, d2 = d1 * r1 / (r1 + stray), d2 * r2 / (r2 + stray)
+    c1, r1, c2, r2, d1, d2 = two_fluid_readings(true, eps, 0.35e-12)
     nominal = cb.parallel_discs(radius="20 mm", gap="2 mm", specimen=cb.Specimen("1.52 mm", 11))
     res = X.two_fluid(
         nominal,
         c1,
-        r1 + stray,
+        r1,
         c2,
-        r2 + stray,
+        r2,
         eps_fluid1=e1,
         eps_fluid2=e2,
         dissipation1=d1,
