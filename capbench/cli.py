@@ -555,7 +555,9 @@ def _cmd_extract(args, out: _Out) -> int:
             }
         )
         return EXIT_OK
-    out.line(f"{m.lab}, {m.bench}: specimen {m.specimen_id} ({m.description})")
+    where = ", ".join(x for x in (m.lab, m.bench) if x)
+    what = f"specimen {m.specimen_id}" + (f" ({m.description})" if m.description else "")
+    out.line(f"{where}: {what}" if where else what)  # no empty parts (", :", "()")
     out.line(f"fixture: {m.fixture.name}; method: {res.method}")
     out.line(data["statement"])
     fluids = _fluid_caution(m)
