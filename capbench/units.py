@@ -66,15 +66,46 @@ _EXAMPLE = {
 }
 
 
+MAX_UNIT_DEPTH = 3
+
+
 def _plain_unit(unit: str) -> bool:
-    """Whether ``unit`` is made only of :data:`_UNIT_TOKEN` pieces (no number arithmetic)."""
+    """Whether ``unit`` is made only of :data:`_UNIT_TOKEN` pieces (no number arithmetic).
+
+    The work is bounded before pint evaluates anything: at most :data:`MAX_UNIT_CHARS`
+    characters, an exponent only after a name or a closing bracket (never a chain such as
+    ``m**9**9``, which pint evaluates right to left as 9**(9**9)), and brackets at most
+    :data:`MAX_UNIT_DEPTH` deep.
+    """
     if len(unit) > MAX_UNIT_CHARS:
         return False
     pos = 0
+    previous = ""  # kind of the last token: "name", "exp", "op", "(" or ")"
+    depth = 0
     while pos < len(unit):
         m = _UNIT_TOKEN.match(unit, pos)
         if m is None or m.end() == pos:
             return unit[pos:].strip() == ""
+        token = m.group(0).strip()
+        if token.startswith(("**", "^")):
+            if previous not in ("name", ")"):
+                return False
+            kind = "exp"
+        elif token == "(":
+            depth += 1
+            if depth > MAX_UNIT_DEPTH:
+                return False
+            kind = "("
+        elif token == ")":
+            depth -= 1
+            if depth < 0:
+                return False
+            kind = ")"
+        elif token in ("*", "/"):
+            kind = "op"
+        else:
+            kind = "name"
+        previous = kind
         pos = m.end()
     return True
 
