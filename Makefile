@@ -4,7 +4,7 @@ VENV := .venv
 BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed
 
-.PHONY: run test quick fuzz bench lint install clean browser
+.PHONY: run test quick fuzz bench bench-peer lint install clean browser
 
 $(STAMP): pyproject.toml
 	test -d $(VENV) || $(PY) -m venv $(VENV)
@@ -45,13 +45,21 @@ quick: install
 # The property tests with the long hypothesis profile ("fuzz": 400 examples a test, a
 # tenth of that where each example solves a field), with how many inputs each tried.
 PROPERTY_TESTS := tests/test_properties.py tests/test_properties_files.py \
-	tests/test_properties_extract.py
+	tests/test_properties_extract.py tests/test_page_text.py tests/test_tolerant_geometry.py
 fuzz: install
 	HYPOTHESIS_PROFILE=fuzz $(BIN)/python -m pytest -q -p no:cacheprovider \
 		--hypothesis-show-statistics $(PROPERTY_TESTS)
 
 bench: install
 	$(BIN)/python benchmarks/accuracy_speed.py
+
+# capbench beside a general-purpose hp finite-element library (NGSolve) on the same
+# fixtures. The peer lives in its own environment and is never a capbench dependency.
+PEER := .venv-peer
+bench-peer: install
+	test -d $(PEER) || $(PY) -m venv $(PEER)
+	$(PEER)/bin/python -m pip install --quiet ngsolve numpy
+	OMP_NUM_THREADS=1 $(BIN)/python benchmarks/peer.py
 
 lint: install
 	$(BIN)/ruff check capbench tests benchmarks examples app.py bench_pages

@@ -109,6 +109,7 @@ def extract_current(rtol: float = 1e-6) -> Any:
             st.session_state[state.EXTRACT_ERROR] = f"{form.title}: {exc}"
             return call
     st.session_state[state.EXTRACTION] = res
+    st.session_state[state.EXTRACTION_INPUTS] = state.extraction_inputs()
     st.session_state[state.POINT] = _reported_point(res)
     monte_carlo(res, st.session_state[state.POINT])
     return call

@@ -14,7 +14,7 @@ fx = state.current_fixture()
 if fx is None:
     state.fixture_missing_note()
     st.stop()
-st.markdown(f"Fixture: **{fx.name}** ({fx.kind.replace('_', ' ')}).")
+st.markdown(f"Fixture: **{state.as_text(fx.name)}** ({fx.kind.replace('_', ' ')}).")
 
 methods = list(wb.METHOD_FORMS)
 st.session_state.setdefault("extract.method", st.session_state[state.METHOD])
@@ -110,14 +110,15 @@ if st.button("Find eps'", type="primary", key="extract.run", disabled=bool(error
         actions.extract_current()
 
 views.extraction_headline()
-res = st.session_state.get(state.EXTRACTION)
+res = state.current_extraction()
 if res is None:
     st.stop()
 
 with state.shielded("Results"):
     st.markdown(
         f"**{res.method}**: {res.solves} field solves in {res.seconds:.1f} s, largest "
-        f"estimated FEM error {res.rel_error:.1e}. Uncertainties expanded, k = 2."
+        f"estimated FEM error {res.rel_error:.1e}. Uncertainties expanded for 95 % coverage "
+        "(k from each budget's effective degrees of freedom)."
     )
     st.dataframe(pd.DataFrame(wb.point_rows(res)), hide_index=True, width="stretch")
     labels = ["-" if p.frequency is None else wb.frequency_text(p.frequency) for p in res.points]
@@ -132,15 +133,14 @@ with state.shielded("Results"):
         st.session_state[state.POINT] = index
         actions.monte_carlo(res, index)
     p = res.points[index]
-    U, k = p.budget.expanded(p=0.95)
-    st.markdown(
-        f"eps' = **{wb.with_uncertainty(p.eps_r.n, U)}** (k = {k:.2f} for about 95 % "
-        f"coverage, {wb.compact(p.budget.dof, 3)} effective degrees of freedom)"
-    )
+    kept = st.session_state.get(state.MONTE_CARLO)
+    mc = kept[1] if kept and kept[0] == index else None
+    value, how = wb.eps_statement(p, mc)
+    st.markdown(f"eps' = **{value}** ({how})")
     st.dataframe(pd.DataFrame(wb.budget_rows(p.budget)), hide_index=True, width="stretch")
     if p.loss_budget is not None:
         with st.expander("Budget of tan δ"):
-            Ut, kt = p.loss_budget.expanded(p=0.95)
+            Ut, kt = p.expanded("tan_delta")
             st.markdown(f"tan δ = **{wb.with_uncertainty(p.tan_delta.n, Ut)}** (k = {kt:.2f})")
             st.dataframe(
                 pd.DataFrame(wb.budget_rows(p.loss_budget)),

@@ -43,7 +43,7 @@ def save_and_load(fixture: cb.Fixture | None) -> None:
             load_text(up.getvalue(), up.name)
         flash = st.session_state.pop("fixture.flash", None)
         if flash:
-            st.success(flash)
+            st.success(state.as_text(flash))
 
 
 def load_text(data: bytes, name: str) -> bool:
@@ -62,7 +62,7 @@ def load_text(data: bytes, name: str) -> bool:
         fx = files.fixture_from_toml(text, source=name)
         builder, texts = wb.form_texts(fx)
     except cb.CapbenchError as exc:
-        st.error(f"Load fixture file: {exc}", icon=":material/error:")
+        st.error(state.as_text(f"Load fixture file: {exc}"), icon=":material/error:")
         return False
     st.session_state[state.FIXTURE_BUILDER] = builder
     st.session_state[state.FIXTURE_TEXTS][builder] = texts

@@ -66,7 +66,7 @@ with right:
             st.pyplot(fig, clear_figure=False)
             st.caption("Cross-section to scale, lengths in mm; axisymmetric rigs show r >= 0.")
         for w in result.warnings:
-            st.warning(w, icon=":material/warning:")
+            st.warning(state.as_text(w), icon=":material/warning:")
     else:
         st.info("The drawing returns when every box is valid.")
 

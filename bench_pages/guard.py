@@ -28,13 +28,24 @@ else:
             "list",
             f"{0.5 * p['specimen_thickness'] * 1e3:.4g}, {p['specimen_thickness'] * 1e3:.4g} mm",
         ),
-        wb.Entry("eps", "Specimen permittivities to test", "list", "2.3"),
+        wb.Entry(
+            "eps",
+            "Specimen permittivities to test",
+            "list",
+            f"{complex(p.get('specimen_eps_r', 2.3)).real:.4g}",  # the fixture's own
+        ),
         wb.Entry("target", "Largest error allowed in eps' [%]", "number", "0.1"),
     )
     values, errors = {}, {}
     cols = st.columns(3)
+    # boxes seeded for another fixture start again from this one's values (the demo's
+    # thickness and eps must not stay under a user's own cell)
+    fresh = st.session_state.get("guard.seeded_for") != fx
+    st.session_state["guard.seeded_for"] = fx
     for col, e in zip(cols, entries, strict=True):
         key = f"guard.{e.key}"
+        if fresh and e.key != "target":
+            st.session_state[key] = e.default
         st.session_state.setdefault(key, e.default)
         with col:
             st.text_input(e.label, key=key)
@@ -83,13 +94,18 @@ st.subheader("Measured against ideal")
 if fx.kind not in ("guarded_cell", "parallel_discs") or fx.specimen is None:
     st.info("The comparison needs a guarded cell or parallel discs with a specimen.")
     st.stop()
+# the demo's reading only under the demo's own cell; a user's cell starts empty
+demo_reading = "20.6133 pF" if state.demo_is_current(fx) else ""
 boxes = (
-    wb.Entry("measured", "Measured capacitance [pF]", "c", "20.6133 pF"),
+    wb.Entry("measured", "Measured capacitance [pF]", "c", demo_reading),
     wb.Entry("stray", "Stray capacitance [pF]", "c", "", True),
     wb.Entry("leads", "Lead capacitance [pF]", "c", "", True),
 )
 vals, errs = {}, {}
 cols = st.columns(3)
+if st.session_state.get("compare.seeded_for") != fx:
+    st.session_state["compare.seeded_for"] = fx
+    st.session_state["compare.measured"] = demo_reading
 for col, e in zip(cols, boxes, strict=True):
     key = f"compare.{e.key}"
     st.session_state.setdefault(key, e.default)
@@ -99,14 +115,18 @@ for col, e in zip(cols, boxes, strict=True):
     try:
         vals[e.key] = (
             None
-            if (e.optional and not raw.strip())
+            if not raw.strip()  # not entered yet (the reading waits for the user)
             else wb.parse_value(raw, e.label, "capacitance", limits="capacitance")
         )
     except cb.CapbenchError as exc:
         errs[e.key] = str(exc)
     with col:
         state.inline_error(errs.get(e.key))
-if st.button("Split the reading", key="compare.run", disabled=bool(errs)):
+if vals.get("measured") is None and not errs:
+    st.caption("Enter the measured capacitance to split it.")
+if st.button(
+    "Split the reading", key="compare.run", disabled=bool(errs) or vals.get("measured") is None
+):
     with state.shielded("Measured against ideal"), st.spinner("Solving..."):
         comp = cb.measured_vs_ideal(fx, vals["measured"], stray=vals["stray"], leads=vals["leads"])
         st.session_state[state.COMPARISON] = (fx, comp)
@@ -116,7 +136,7 @@ if kept and kept[0] == fx:
     for b in (comp.guarded, comp.unguarded):
         if b is None:
             continue
-        st.markdown(f"**{b.label}**")
+        st.markdown(f"**{state.as_text(b.label)}**")
         st.dataframe(pd.DataFrame(wb.breakdown_rows(b)), hide_index=True)
         if b.standard is not None:
             st.caption(

@@ -14,7 +14,7 @@ if fx is None:
     state.fixture_missing_note()
     st.stop()
 
-res = st.session_state.get(state.EXTRACTION)
+res = state.current_extraction()
 sol = actions.current_solution()
 kept = st.session_state.get(state.MONTE_CARLO)
 index = st.session_state.get(state.POINT, 0)
@@ -22,14 +22,44 @@ guard = st.session_state.get(state.GUARD)
 guard = guard[1] if guard and guard[0] == fx else None
 comparison = st.session_state.get(state.COMPARISON)
 comparison = comparison[1] if comparison and comparison[0] == fx else None
-title = st.session_state.get(state.DEMO_TITLE) or f"capbench report: {fx.name}"
+is_demo = state.demo_is_current(fx)
+
+st.subheader("Measurement record")
+st.caption(
+    "Who measured what, where, with what and when: it heads every report and the bench "
+    "log. The demo's record shows only while the demo's fixture and readings are loaded."
+)
+entered = dict(st.session_state.get(state.RECORD, {}))
+shown = state.record(fx)  # the demo's values fill in only while the demo is loaded
+demo_record = getattr(st.session_state.get(state.DEMO), "record", {})
+cols = st.columns(3)
+for i, field_name in enumerate(report.RECORD_FIELDS):
+    key = f"report.record.{field_name}"
+    if key not in st.session_state:
+        st.session_state[key] = shown.get(field_name, "")
+    elif not is_demo and st.session_state[key] == demo_record.get(field_name, None):
+        st.session_state[key] = ""  # the demo's identity never heads a user's result
+    cols[i % 3].text_input(field_name.capitalize(), key=key, max_chars=200)
+    value = st.session_state[key]
+    # kept as the user's only where it is not the demo's own value
+    entered[field_name] = "" if value == demo_record.get(field_name) else value
+st.session_state[state.RECORD] = entered
+record = {k: v.strip() for k, v in state.record(fx).items() if v.strip()}
+subject = record.get("specimen") or fx.name
+title = (
+    st.session_state.get(state.DEMO_TITLE)
+    if is_demo and st.session_state.get(state.DEMO_TITLE)
+    else f"capbench report: {subject}"
+)
 if sol is None and res is None:
     st.info("Solve the field or extract eps' first; the report then holds the results.")
 
 # what the report is made of: a new result makes the prepared files stale
-sources = (fx, res, sol, guard, comparison)
+sources = (fx, res, sol, guard, comparison, tuple(sorted(record.items())))
 prepared = st.session_state.get(state.REPORT)
-if prepared and not all(a is b for a, b in zip(prepared[0], sources, strict=True)):
+if prepared and not all(
+    (a is b) or (isinstance(a, tuple) and a == b) for a, b in zip(prepared[0], sources, strict=True)
+):
     prepared = None
 
 st.subheader("Measurement report")
@@ -40,6 +70,8 @@ st.caption(
 )
 if st.button("Prepare the report", type="primary", key="report.build"):
     with state.shielded("Report"), st.spinner("Writing the report (plots and PDF)..."):
+        if sol is None and res is not None:
+            sol = res.solution()  # the field plot's solve: the page's, not the report's
         rep = report.build(
             res.fixture if res is not None else fx,
             extraction=res,
@@ -47,6 +79,7 @@ if st.button("Prepare the report", type="primary", key="report.build"):
             guard=guard,
             comparison=comparison,
             title=title,
+            record=record,
         )
         files = {"html": rep.html(), "pdf": rep.pdf(), "json": rep.json()}
         prepared = (sources, files)

@@ -15,7 +15,7 @@ if fx is None:
     st.stop()
 
 how = "three-terminal (direct)" if fx.connection == "direct" else "two-terminal"
-st.markdown(f"**{fx.name}**: {fx.kind.replace('_', ' ')}, {how}")
+st.markdown(f"**{state.as_text(fx.name)}**: {fx.kind.replace('_', ' ')}, {how}")
 st.session_state.setdefault("solve.rtol", "1e-6 (default)")
 cols = st.columns([3, 1])
 with cols[0]:
@@ -73,6 +73,6 @@ elif view is not None:
             state.inline_error(str(exc))
         else:
             if severe:
-                st.error(text, icon=":material/bolt:")
+                st.error(state.as_text(text), icon=":material/bolt:")
             else:
-                st.warning(text, icon=":material/warning:")
+                st.warning(state.as_text(text), icon=":material/warning:")

@@ -16,6 +16,10 @@ import streamlit as st
 import capbench as cb
 from capbench import workbench as wb
 
+#: user text as literal text inside Markdown (one escape, shared with the summary)
+as_text = wb.markdown_text
+
+
 #: keys of the results and inputs the pages share (none is a widget's key)
 FIXTURE_BUILDER = "bench.fixture.builder"
 FIXTURE_TEXTS = "bench.fixture.texts"  # builder -> {box key: text}
@@ -29,6 +33,7 @@ METHOD_TEXTS = "bench.method.texts"  # method -> {box key: text}
 SOURCE = "bench.method.source"  # "table" or "single"
 TABLE_TEXT = "bench.table.text"
 EXTRACTION = "bench.extraction"
+EXTRACTION_INPUTS = "bench.extraction.inputs"  # what the kept extraction was made from
 EXTRACT_ERROR = "bench.extract.error"
 POINT = "bench.point"
 MONTE_CARLO = "bench.monte_carlo"
@@ -36,6 +41,8 @@ GUARD = "bench.guard"
 COMPARISON = "bench.comparison"
 DEMO_TITLE = "bench.demo.title"
 REPORT = "bench.report"  # (sources, {"html": str, "pdf": bytes, "json": str})
+RECORD = "bench.record"  # the measurement record the user entered: field -> text
+DEMO = "bench.demo"  # the demo's Demo, to know when the page still holds it
 
 
 def init() -> None:
@@ -56,10 +63,13 @@ def init() -> None:
         method = "contacting"
     else:
         builder = d.builder
-        texts = {d.builder: d.fixture_texts}
+        # copies: the boxes edit these dicts in place, and the demo's own must stay as
+        # loaded (it tells whether the page still holds the demo)
+        texts = {d.builder: dict(d.fixture_texts)}
+        st.session_state.setdefault(DEMO, d)
         st.session_state.setdefault(DEMO_TITLE, d.title)
         st.session_state.setdefault(FIXTURE_NAME, d.fixture_name)
-        method_texts = {d.method: d.method_texts}
+        method_texts = {d.method: dict(d.method_texts)}
         table = d.table
         method = d.method
     st.session_state.setdefault(FIXTURE_BUILDER, builder)
@@ -104,6 +114,35 @@ def rebuild_fixture() -> wb.FormResult:
     return result
 
 
+def extraction_inputs() -> tuple:
+    """Everything an extraction is made from on the page: fixture, method, where the
+    readings come from, the method's boxes and the readings table."""
+    method = st.session_state.get(METHOD)
+    return (
+        current_fixture(),
+        method,
+        st.session_state.get(SOURCE),
+        # the boxes' texts, leaving out empty ones (drawing a page adds empty boxes)
+        tuple(sorted((k, v) for k, v in method_texts(method).items() if str(v).strip()))
+        if method
+        else (),
+        st.session_state.get(TABLE_TEXT, ""),
+    )
+
+
+def current_extraction() -> Any:
+    """The kept extraction if it was made from the inputs the page holds now, else None
+    (a result is never shown under a fixture or readings it was not made from)."""
+    res = st.session_state.get(EXTRACTION)
+    if res is None or st.session_state.get(EXTRACTION_INPUTS) != extraction_inputs():
+        return None
+    return res
+
+
+def extraction_is_stale() -> bool:
+    return st.session_state.get(EXTRACTION) is not None and current_extraction() is None
+
+
 def method_texts(method: str | None = None) -> dict[str, str]:
     method = method or st.session_state[METHOD]
     store = st.session_state[METHOD_TEXTS]
@@ -127,7 +166,7 @@ def text_box(entry: wb.Entry, store: dict[str, str], prefix: str) -> str:
 def inline_error(message: str | None) -> None:
     """The message under a box that names the box and what would be valid."""
     if message:
-        st.error(message, icon=":material/error:")
+        st.error(as_text(message), icon=":material/error:")
 
 
 @contextmanager
@@ -137,14 +176,40 @@ def shielded(where: str) -> Iterator[None]:
     try:
         yield
     except cb.CapbenchError as exc:
-        st.error(f"{where}: {exc}", icon=":material/error:")
+        st.error(as_text(f"{where}: {exc}"), icon=":material/error:")
     except Exception as exc:  # the page boundary: nothing may escape as a traceback
         traceback.print_exc()  # to the server's log, for the developers
         st.error(
-            f"{where}: an unexpected {type(exc).__name__} ({exc}). Nothing was saved; "
-            "check the entries above, and report it if it persists.",
+            as_text(
+                f"{where}: an unexpected {type(exc).__name__} ({exc}). Nothing was saved; "
+                "check the entries above, and report it if it persists."
+            ),
             icon=":material/error:",
         )
+
+
+def demo_is_current(fx: cb.Fixture | None) -> bool:
+    """Whether the page still holds the demo's own fixture and readings: only then may
+    the demo's identity (lab, specimen, title) appear on a result."""
+    d = st.session_state.get(DEMO)
+    if d is None or fx is None:
+        return False
+    demo_fx = wb.read_fixture_form(d.builder, d.fixture_texts, d.fixture_name).fixture
+    return (
+        demo_fx == fx
+        and st.session_state.get(TABLE_TEXT, "") == d.table
+        and st.session_state.get(METHOD) == d.method
+    )
+
+
+def record(fx: cb.Fixture | None) -> dict[str, str]:
+    """The measurement record for a report of ``fx``: what the user entered; the demo's
+    record where the user entered nothing and the page still holds the demo."""
+    entered = dict(st.session_state.get(RECORD, {}))
+    d = st.session_state.get(DEMO)
+    if d is not None and demo_is_current(fx):
+        return {k: entered.get(k) or v for k, v in d.record.items()}
+    return entered
 
 
 def current_fixture() -> cb.Fixture | None:
@@ -159,7 +224,7 @@ def sidebar() -> None:
     with st.sidebar:
         fx = current_fixture()
         if fx is not None:
-            st.caption(f"Fixture: **{fx.name}** ({fx.kind.replace('_', ' ')})")
+            st.caption(f"Fixture: **{as_text(fx.name)}** ({fx.kind.replace('_', ' ')})")
         sol = st.session_state.get(SOLUTION)
         if sol is not None and fx is not None and sol.fixture == fx:
             st.caption(f"Solved: {cap_text(sol)}")

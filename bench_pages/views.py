@@ -14,7 +14,7 @@ def solve_summary(compact: bool = False) -> None:
     """The solved capacitance with its error estimate (and, in full, the matrix)."""
     err = st.session_state.get(state.SOLVE_ERROR)
     if err:
-        st.error(err, icon=":material/error:")
+        st.error(state.as_text(err), icon=":material/error:")
     sol = actions.current_solution()
     if sol is None:
         return
@@ -44,29 +44,31 @@ def extraction_headline() -> None:
     """eps' (and tan delta) of the reported point, with the expanded uncertainty."""
     err = st.session_state.get(state.EXTRACT_ERROR)
     if err:
-        st.error(err, icon=":material/error:")
-    res = st.session_state.get(state.EXTRACTION)
+        st.error(state.as_text(err), icon=":material/error:")
+    res = state.current_extraction()
     if res is None:
+        if state.extraction_is_stale():
+            st.info(
+                "The fixture or the readings changed since the last result; press "
+                "*Find eps'* for a result of these."
+            )
         return
     i = min(st.session_state.get(state.POINT, 0), len(res.points) - 1)
     p = res.points[i]
-    U, k = p.budget.expanded(p=0.95)
+    kept = st.session_state.get(state.MONTE_CARLO)
+    value, how = wb.eps_statement(p, kept[1] if kept and kept[0] == i else None)
     where = "" if p.frequency is None else f" at {wb.frequency_text(p.frequency)}"
     cols = st.columns(3)
-    cols[0].metric(
-        f"eps'{where}",
-        wb.with_uncertainty(p.eps_r.n, U),
-        help=f"Expanded uncertainty, k = {k:.2f} (about 95 % coverage).",
-    )
+    cols[0].metric(f"eps'{where}", value, help=how[0].upper() + how[1:] + ".")
     cols[1].metric(
         "Field correction",
         f"{100 * p.correction:+.3f} %",
         help="eps' from the fixture's field against the parallel-plate formula.",
     )
     if p.tan_delta is not None:
-        Ut, kt = p.loss_budget.expanded(p=0.95)
+        Ut, kt = p.expanded("tan_delta")
         cols[2].metric(
             f"tan δ{where}",
             wb.with_uncertainty(p.tan_delta.n, Ut),
-            help=f"Expanded uncertainty, k = {kt:.2f}.",
+            help=f"Expanded uncertainty, k = {kt:.2f} for 95 % coverage.",
         )

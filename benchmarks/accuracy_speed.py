@@ -109,15 +109,13 @@ def _child_warm(case: str, rtol: float, repeats: int) -> float:
     import warnings
 
     import capbench as cb
-    from capbench import capacitance as cc
 
     warnings.simplefilter("ignore")
     cb.solve(cb.parallel_discs(radius="20 mm", gap="3 mm"), rtol=rtol)
     fx = make_fixture(case)
     times = []
     for _ in range(repeats):
-        cc._MESHES.clear()
-        cc._ASSEMBLIES.clear()
+        cb.clear_caches()
         t0 = time.perf_counter()
         cb.solve(fx, rtol=rtol)
         times.append(time.perf_counter() - t0)

@@ -6,17 +6,26 @@ complex factorisations to one thread), and contacting extractions of growing sco
 as a multiple of one real solve measured in the same run. Meshes are built once first
 (warm caches), as in a session that extracts several specimens on one fixture.
 
-    python benchmarks/extraction_speed.py
+Then the two demo measurements that extract from solves of their own cells (the
+micrometer file QF-PS-07 and the two-fluid file QF-PMMA-02 of fixtures/quillfield/), each
+as a multiple of one solve of that cell, with the share of the time spent on the
+dimension derivatives (central differences of re-meshed solves) and on the Newton solves.
+
+    python benchmarks/extraction_speed.py            # both parts
+    python benchmarks/extraction_speed.py --demos    # the demo files only
 """
 
 from __future__ import annotations
 
+import sys
 import time
+from pathlib import Path
 
 from threadpoolctl import threadpool_limits
 
 import capbench as cb
 from capbench import extract as X
+from capbench import files
 from capbench import uncertainty as U
 
 
@@ -75,5 +84,47 @@ def main() -> None:
         print(f"{name:<40} {w:>8.3f} {w / real:>13.1f} {res.solves:>7}")
 
 
+DEMOS = Path(__file__).resolve().parents[1] / "fixtures" / "quillfield"
+
+
+def demos() -> None:
+    """Each demo file's extraction against one solve of its own cell, and where its time
+    goes: solves made for dimension derivatives (``_Fem.gradient``) against the rest."""
+    print(
+        f"\n{'demo file (rtol 1e-6)':<28} {'wall s':>8} {'/ solve':>8} {'solves':>7} "
+        f"{'derivs s':>9} {'deriv solves':>13}"
+    )
+    for name in ("qf-ps-07", "qf-pmma-02"):
+        m = files.read_measurement(DEMOS / f"{name}.toml")
+        cb.solve(m.fixture, rtol=1e-6)  # warm the mesh and assembly caches
+        one = timed(lambda m=m: cb.solve(m.fixture, rtol=1e-6))
+        m.extract(rtol=1e-6)  # warm the fixtures the method rebuilds
+        spent = {"s": 0.0, "n": 0}
+        plain = X._Fem.gradient
+
+        def counted(self, *a, plain=plain, spent=spent, **k):
+            before, t0 = self.count, time.perf_counter()
+            try:
+                return plain(self, *a, **k)
+            finally:
+                spent["s"] += time.perf_counter() - t0
+                spent["n"] += self.count - before
+
+        X._Fem.gradient = counted  # instrumentation only, restored below
+        try:
+            t0 = time.perf_counter()
+            res = m.extract(rtol=1e-6)
+            wall = time.perf_counter() - t0
+        finally:
+            X._Fem.gradient = plain
+        print(
+            f"{name + ' (' + m.method + ')':<28} {wall:>8.2f} {wall / one:>8.1f} "
+            f"{res.solves:>7} {spent['s']:>9.2f} {spent['n']:>13}"
+        )
+    print("one solve of each cell:", "timed warm, best of 3")
+
+
 if __name__ == "__main__":
-    main()
+    if "--demos" not in sys.argv[1:]:
+        main()
+    demos()

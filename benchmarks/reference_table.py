@@ -25,7 +25,6 @@ from conftest import field_cases  # noqa: E402
 from test_reference_field import build  # noqa: E402
 
 import capbench as cb  # noqa: E402
-from capbench import capacitance as cc  # noqa: E402
 from capbench.geometry import DIRECT, Fixture  # noqa: E402
 
 
@@ -41,8 +40,7 @@ def main(argv=None) -> int:
     )
     for rtol in args.rtol:
         for case in field_cases():
-            cc._MESHES.clear()
-            cc._ASSEMBLIES.clear()
+            cb.clear_caches()
             t0 = time.perf_counter()
             sol = cb.solve(build(case), rtol=rtol)
             s = time.perf_counter() - t0
@@ -56,8 +54,7 @@ def main(argv=None) -> int:
             ("thompson-lampard-square", {}),
             ("thompson-lampard-20x13", {"height": "13 mm"}),
         ):
-            cc._MESHES.clear()
-            cc._ASSEMBLIES.clear()
+            cb.clear_caches()
             fx = cb.four_electrode_section(width="20 mm", gap="0.02 mm", **kw)
             t0 = time.perf_counter()
             s1 = cb.solve(fx, rtol=rtol)

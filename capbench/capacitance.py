@@ -23,7 +23,6 @@ from __future__ import annotations
 
 import math
 import time
-from collections import OrderedDict
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 
@@ -33,6 +32,7 @@ import pint
 from . import field as fe
 from . import mesh as mm
 from . import validate
+from .caches import Cache
 from .errors import GeometryError, SolverError
 from .geometry import DIRECT, GROUND, MEDIUM, PAIR, Fixture, Geometry, OpenSpace
 from .units import EPS0, Q_
@@ -328,24 +328,10 @@ def _mesh_key(g: Geometry) -> tuple:
     return (g.symmetry, g.conductors, tuple((d.name, d.shape) for d in g.dielectrics), g.boundary)
 
 
-class _LRU(OrderedDict):
-    def __init__(self, size: int):
-        super().__init__()
-        self.size = size
-
-    def get_or(self, key, make):
-        if key in self:
-            self.move_to_end(key)
-            return self[key]
-        value = make()
-        self[key] = value
-        while len(self) > self.size:
-            self.popitem(last=False)
-        return value
-
-
-_MESHES = _LRU(32)
-_ASSEMBLIES = _LRU(6)
+#: meshes of the ladder by geometry, options, innermost size class and level
+MESHES = Cache("meshes", 32)
+#: assembled systems by the same key and element degree (the chain to level 3 fits in 6)
+ASSEMBLIES = Cache("assemblies", 6)
 
 
 def base_mesh(
@@ -361,7 +347,7 @@ def base_mesh(
         star = mm.star_refine(seed, h_min=h_min, sigma=options.sigma)
         return mm.attach_shell(star, geometry, options)
 
-    return _MESHES.get_or(key, make)
+    return MESHES.get_or(key, make)
 
 
 def _h_min_class(rtol: float) -> float:
@@ -376,14 +362,14 @@ def level_mesh(
     key = (_mesh_key(geometry), options, _h_min_class(rtol), level)
     if level == 0:
         return base_mesh(geometry, rtol, options)
-    return _MESHES.get_or(key, lambda: mm.refined(level_mesh(geometry, rtol, level - 1, options)))
+    return MESHES.get_or(key, lambda: mm.refined(level_mesh(geometry, rtol, level - 1, options)))
 
 
 def _assembly(
     geometry: Geometry, rtol: float, level: int, degree: int, options: mm.MeshOptions
 ) -> fe.Assembly:
     key = (_mesh_key(geometry), options, _h_min_class(rtol), level, degree)
-    return _ASSEMBLIES.get_or(
+    return ASSEMBLIES.get_or(
         key,
         lambda: fe.assemble(
             level_mesh(geometry, rtol, level, options), degree, len(geometry.conductors)

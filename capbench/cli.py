@@ -25,19 +25,19 @@ import io
 import json
 import math
 import os
+import re
 import sys
 import warnings
 from pathlib import Path
 from typing import Any, TextIO
+
+from .cautions import SHORT as CAUTION_LINE
 
 EXIT_OK = 0
 EXIT_INPUT = 1
 EXIT_USAGE = 2
 EXIT_INTERNAL = 3
 
-CAUTION_LINE = (
-    "Caution: bench fixtures can carry high voltage; follow local codes and licensed practice."
-)
 
 _EPILOG = """\
 examples:
@@ -112,9 +112,20 @@ def _workers(text: str) -> int:
     return value
 
 
+def _entry_id(text: str) -> int:
+    """A bench-log entry number: a whole number the log can hold (SQLite's integers are
+    64-bit; a longer one made 'log show' fail with OverflowError, exit 3)."""
+    if not re.fullmatch(r"\s*\d{1,19}\s*", text) or int(text) > 2**63 - 1:
+        raise argparse.ArgumentTypeError(
+            f"{text[:40]!r} is not an entry number; give a whole number from 1 to "
+            f"{2**63 - 1} (see 'capbench log list')"
+        )
+    return int(text)
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser of the ``capbench`` command."""
-    from .validate import SOLVERS
+    from .options import SOLVERS
 
     p = _Parser(
         prog="capbench",
@@ -126,7 +137,7 @@ def build_parser() -> argparse.ArgumentParser:
         epilog=_EPILOG,
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
-    from . import __version__
+    from ._version import __version__
 
     p.add_argument("--version", action="version", version=f"capbench {__version__}")
     sub = p.add_subparsers(dest="command", metavar="command", parser_class=_Parser)
@@ -151,6 +162,13 @@ def build_parser() -> argparse.ArgumentParser:
             "--log-file",
             metavar="PATH",
             help="bench log database (default $CAPBENCH_LOG or the user data directory)",
+        )
+
+    def allow_outside(sp):
+        sp.add_argument(
+            "--allow-outside",
+            action="store_true",
+            help="let the measurement name fixture or readings files outside its folder",
         )
 
     sp = sub.add_parser(
@@ -197,8 +215,33 @@ def build_parser() -> argparse.ArgumentParser:
     )
     sp.add_argument("--budget", action="store_true", help="print every uncertainty budget")
     sp.add_argument("--log", action="store_true", help="record the result in the bench log")
-    sp.add_argument("--operator", help="who measured (default: the file's, else your login)")
+    sp.add_argument(
+        "--operator", help="who measured (default: the measurement file's [lab] operator)"
+    )
+    allow_outside(sp)
     log_file(sp)
+
+    sp = sub.add_parser(
+        "relax",
+        help="fit relaxation models to a measurement's eps*(f), with a Kramers-Kronig check",
+        description="Extract eps' and eps'' at every frequency of a measurement file, then "
+        "fit Debye, Cole-Cole, Cole-Davidson and Havriliak-Negami models (with and without "
+        "a DC conductivity) by generalised least squares over the spectrum's covariance; "
+        "rank them by BIC (or AIC) and test the spectrum's Kramers-Kronig consistency.",
+    )
+    sp.add_argument("measurement", help="a capbench-measurement/1 TOML file with loss readings")
+    sp.add_argument(
+        "--model",
+        default="auto",
+        choices=("auto", "debye", "cole-cole", "cole-davidson", "havriliak-negami"),
+        help="one model, or auto: every model, ranked (default)",
+    )
+    sp.add_argument("--criterion", choices=("bic", "aic"), default="bic", help="ranking")
+    sp.add_argument(
+        "--closed-form", action="store_true", help="the parallel-plate formula only (no FEM)"
+    )
+    allow_outside(sp)
+    common(sp)
 
     sp = sub.add_parser(
         "guard",
@@ -267,7 +310,10 @@ def build_parser() -> argparse.ArgumentParser:
         help="comma-separated: html, pdf, json (default all three)",
     )
     sp.add_argument("--log", action="store_true", help="record the result in the bench log")
-    sp.add_argument("--operator", help="who measured (default: the file's, else your login)")
+    sp.add_argument(
+        "--operator", help="who measured (default: the measurement file's [lab] operator)"
+    )
+    allow_outside(sp)
     log_file(sp)
     common(sp)
 
@@ -279,7 +325,7 @@ def build_parser() -> argparse.ArgumentParser:
     lp.add_argument("--specimen", help="only this specimen id")
     lp.add_argument("--limit", type=_workers, default=50, help="at most this many (1-256)")
     lp = log_sub.add_parser("show", help="one entry with its readings and results")
-    lp.add_argument("id", type=int, help="entry number (from 'capbench log list')")
+    lp.add_argument("id", type=_entry_id, help="entry number (from 'capbench log list')")
     lp = log_sub.add_parser("export", help="every result row as CSV")
     lp.add_argument("csv", help="the CSV file to write ('-' for standard output)")
     lp.add_argument("--specimen", help="only this specimen id")
@@ -300,12 +346,18 @@ class _Out:
         self.stderr = stderr
         self.as_json = as_json
         self.progress = progress or getattr(stderr, "isatty", lambda: False)()
+        self.cautioned = False
 
     def json(self, data: Any) -> None:
+        if isinstance(data, dict) and "caution" not in data:
+            data = {**data, "caution": CAUTION_LINE}  # every document carries it
         self.stdout.write(json.dumps(data, indent=2, allow_nan=False, default=str) + "\n")
+        self.cautioned = True
 
     def line(self, text: str = "") -> None:
         self.stdout.write(text + "\n")
+        if text == CAUTION_LINE:
+            self.cautioned = True
 
     def status(self, text: str) -> None:
         if self.progress:
@@ -409,6 +461,65 @@ _LOGGED_READING_EXTRAS = (
 )
 
 
+def _cmd_relax(args, out: _Out) -> int:
+    from . import dispersion as dsp
+    from .files import read_measurement
+
+    m = read_measurement(args.measurement, allow_outside=args.allow_outside)
+    out.status(f"extracting {m.specimen_id} ({m.method}, {len(m.frequencies)} frequencies)")
+    res = m.extract(rtol=args.rtol, fem=not args.closed_form)
+    spectrum = dsp.Spectrum.from_extraction(res)
+    if args.model == "auto":
+        fits = dsp.choose(spectrum, criterion=args.criterion)
+    else:
+        fits = [dsp.fit(spectrum, args.model, c) for c in (False, True)]
+        fits.sort(key=lambda r: getattr(r, args.criterion))
+    kk = dsp.kramers_kronig(spectrum) if spectrum.frequency.size >= 5 else None
+    if out.as_json:
+        out.json(
+            {
+                "specimen": m.specimen_id,
+                "method": res.method,
+                "criterion": args.criterion,
+                "fits": [
+                    {
+                        "model": r.model,
+                        "conductivity": r.conductivity,
+                        "chi2": r.chi2,
+                        "dof": r.dof,
+                        "aic": r.aic,
+                        "bic": r.bic,
+                        "params": {
+                            k: {"value": v.nominal_value, "u": v.std_dev}
+                            for k, v in r.params.items()
+                        },
+                    }
+                    for r in fits
+                ],
+                "kramers_kronig": None
+                if kk is None
+                else {"consistent": kk.consistent, "max_z": float(max(abs(kk.z)))},
+            }
+        )
+        return EXIT_OK
+    out.line(f"specimen {m.specimen_id}: {len(res.points)} frequencies, {res.method}")
+    out.line(f"models ranked by {args.criterion.upper()} (best first; u = standard uncertainty):")
+    for r in fits:
+        out.line(r.table())
+    out.line(kk.text() if kk else "Kramers-Kronig check: needs at least 5 frequencies")
+    out.line(CAUTION_LINE)
+    return EXIT_OK
+
+
+def _fluid_caution(m: Any) -> str:
+    """The hazards of the test liquids a measurement names (two-fluid method)."""
+    from .cautions import for_fluids
+
+    options = dict(m.method_options)
+    names = [str(options.get(k, "")) for k in ("fluid1", "fluid2")]
+    return for_fluids(n.split()[0] for n in names if n)
+
+
 def _open_log(args):
     from .store import BenchLog
 
@@ -419,7 +530,7 @@ def _cmd_extract(args, out: _Out) -> int:
     from . import report
     from .files import read_measurement
 
-    m = read_measurement(args.measurement)
+    m = read_measurement(args.measurement, allow_outside=args.allow_outside)
     out.status(f"extracting {m.specimen_id} ({m.method}, {len(m.frequencies)} frequencies)")
     res = m.extract(rtol=args.rtol, fem=not args.closed_form)
     data = report.results(res)
@@ -447,8 +558,11 @@ def _cmd_extract(args, out: _Out) -> int:
     out.line(f"{m.lab}, {m.bench}: specimen {m.specimen_id} ({m.description})")
     out.line(f"fixture: {m.fixture.name}; method: {res.method}")
     out.line(data["statement"])
+    fluids = _fluid_caution(m)
+    if fluids:
+        out.line(fluids)
     out.line()
-    out.line(res.table(k=2.0))
+    out.line(res.table())
     if args.budget:
         for p in res.points:
             out.line()
@@ -668,10 +782,16 @@ def _cmd_report(args, out: _Out) -> int:
     stem = args.output or str(Path(args.file).with_suffix(""))
     entry = None
     if schema == SCHEMA:
-        m = read_measurement(args.file)
+        m = read_measurement(args.file, allow_outside=args.allow_outside)
         out.status(f"extracting {m.specimen_id} ({m.method})")
         res = m.extract(rtol=args.rtol)
-        rep = report.build(measurement=m, extraction=res, operator=args.operator or None)
+        out.status("solving the fixture at the result for the field plot")
+        rep = report.build(
+            measurement=m,
+            extraction=res,
+            solution=res.solution(),
+            operator=args.operator or None,
+        )
         if args.log:
             with _open_log(args) as log:
                 entry = log.log_extraction(
@@ -721,6 +841,8 @@ def _cmd_report(args, out: _Out) -> int:
 
 
 def _cmd_log(args, out: _Out) -> int:
+    from .units import frequency_text
+
     with _open_log(args) as log:
         if args.action == "list":
             entries = log.entries(specimen=args.specimen, limit=args.limit)
@@ -771,7 +893,7 @@ def _cmd_log(args, out: _Out) -> int:
                 )
             out.line(f"{len(e.results)} results:")
             for r in e.results:
-                f = "-" if r["frequency"] is None else f"{r['frequency']:g} Hz"
+                f = "-" if r["frequency"] is None else frequency_text(r["frequency"])
                 out.line(
                     f"  {f:>12}  eps' {r['eps_r']:.6g} +- {r['expanded_eps_r']:.2g} "
                     f"(k = {r['k_eps_r']:.2f})"
@@ -782,6 +904,7 @@ def _cmd_log(args, out: _Out) -> int:
         n = max(0, len(list(csv.reader(io.StringIO(text)))) - 1)
         if args.csv == "-":
             out.stdout.write(text)
+            out.cautioned = True  # the CSV is data for another program: no caution in it
         elif out.as_json:
             out.json({"file": args.csv, "rows": n})
         else:
@@ -822,6 +945,7 @@ def _one_line(exc: BaseException) -> str:
 _COMMANDS = {
     "solve": _cmd_solve,
     "extract": _cmd_extract,
+    "relax": _cmd_relax,
     "guard": _cmd_guard,
     "compare": _cmd_compare,
     "sweep": _cmd_sweep,
@@ -847,8 +971,7 @@ def main(
             sys.stdout, sys.stderr = saved
     except SystemExit as exc:  # --help, --version (0) or a usage error (2)
         return int(exc.code or 0)
-    from .errors import CapbenchError
-    from .validate import CapbenchWarning
+    from .errors import CapbenchError, CapbenchWarning
 
     def show_warning(message, category, filename, lineno, file=None, line=None):
         if issubclass(category, CapbenchWarning):
@@ -868,7 +991,10 @@ def main(
                 getattr(args, "json", False),
                 getattr(args, "progress", False),
             )
-            return _COMMANDS[args.command](args, out)
+            code = _COMMANDS[args.command](args, out)
+            if code == EXIT_OK and not out.cautioned and not out.as_json:
+                out.line(CAUTION_LINE)  # every command's text output ends with it
+            return code
         except CapbenchError as exc:
             # one line: a message quoting a file's text may hold line breaks
             stderr.write(f"capbench: error: {_one_line(exc)}\n")

@@ -38,7 +38,10 @@ EDGE_CAPACITANCE_SOURCE = (
 )
 
 GAP_FORMULA_NAME = "standard's gap correction eps0 eps_r (A(d1 + B g) - A(d1)) / t"
-EDGE_FORMULA_NAME = "standard's empirical edge capacitance C_e (unguarded discs)"
+EDGE_FORMULA_NAME = (
+    "standard's empirical edge capacitance C_e (unguarded discs; approximate: its "
+    "coefficients are quoted from memory)"
+)
 
 KINDS = ("guarded_cell", "parallel_discs")
 

@@ -55,3 +55,7 @@ class ExtractionError(CapbenchError, ValueError):
 
 class StoreError(CapbenchError, RuntimeError):
     """The bench log could not be read or written."""
+
+
+class CapbenchWarning(UserWarning):
+    """A legal but suspicious input (a gap a thousand times smaller than its electrode)."""

@@ -41,6 +41,7 @@ import io
 import math
 import os
 import re
+import stat
 import tempfile
 import tomllib
 from collections.abc import Mapping
@@ -48,7 +49,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from .errors import CapbenchError, FileFormatError
+from .errors import CapbenchError, FileFormatError, InputError
 from .geometry import (
     CONNECTIONS,
     MEDIUM,
@@ -951,13 +952,64 @@ def read_fixture(path: str | os.PathLike) -> Fixture:
     return fixture_from_toml(text, source=path.name)
 
 
-def _atomic_write(path: Path, text: str) -> None:
+def _umask() -> int:
+    """The process's umask, read without changing it where the system shows it."""
+    try:
+        with open("/proc/self/status", encoding="ascii") as fh:
+            for line in fh:
+                if line.startswith("Umask:"):
+                    return int(line.split()[1], 8)
+    except (OSError, ValueError):
+        pass
+    mask = os.umask(0o022)  # elsewhere: set and restore (not thread-safe, so last resort)
+    os.umask(mask)
+    return mask
+
+
+def _atomic_write(path: Path, data: str | bytes) -> None:
+    """The one way capbench writes a file: only a regular file (or nothing) at ``path``
+    is replaced, through a temporary file beside it, so a crash leaves the old file or
+    the new one, never half of one.
+
+    A symbolic link, FIFO, device or directory at ``path`` is refused, not written over
+    (the user named a path, not what it points at; writing through a link could reach
+    anywhere). A new file's mode follows the umask as any program's would; an existing
+    file keeps its mode.
+    """
+    path = Path(path)
+    try:
+        st = os.lstat(path)
+    except FileNotFoundError:
+        st = None
+    except OSError as exc:
+        raise InputError(f"cannot write {path}: {exc.strerror}", value=str(path)) from None
+    if st is not None and not stat.S_ISREG(st.st_mode):
+        what = (
+            "a symbolic link"
+            if stat.S_ISLNK(st.st_mode)
+            else "a directory"
+            if stat.S_ISDIR(st.st_mode)
+            else "a FIFO"
+            if stat.S_ISFIFO(st.st_mode)
+            else "a device or socket"
+        )
+        raise InputError(
+            f"will not write {path}: it is {what}, not a regular file; remove it or give "
+            "another path (capbench writes only regular files)",
+            value=str(path),
+        )
+    mode = stat.S_IMODE(st.st_mode) if st is not None else 0o666 & ~_umask()
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
     try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
-            fh.write(text)
+        if isinstance(data, str):
+            fh = os.fdopen(fd, "w", encoding="utf-8", newline="\n")
+        else:
+            fh = os.fdopen(fd, "wb")
+        with fh:
+            fh.write(data)
             fh.flush()
+            os.fchmod(fh.fileno(), mode)
             os.fsync(fh.fileno())
         os.replace(tmp, path)
     except BaseException:
@@ -1029,6 +1081,9 @@ def read_readings(path: str | os.PathLike) -> tuple[Reading, ...]:
     return readings_from_csv(text, source=path.name)
 
 
+_DECIMAL_COMMA = re.compile(r"\s*[-+]?(?:\d+,\d*|,\d+)(?:[eE][-+]?\d+)?\s*")
+
+
 def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, ...]:
     """Read a readings table from CSV text (see :func:`read_readings`)."""
     numbered = []
@@ -1063,11 +1118,15 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
             file=source,
         )
     rows = []
+    # a table saved where the decimal mark is a comma: semicolons between cells (in the
+    # header and no comma there) and "20,613" read as 20.613
+    header_text = numbered[0][1]
+    semicolons = ";" in header_text and "," not in header_text
     for i, ln in numbered:
         # one line, one row: a quoted cell may not run on to the next line (the row
         # count would no longer match the line numbers the messages give)
         try:
-            parsed = list(csv.reader([ln], strict=True))
+            parsed = list(csv.reader([ln], strict=True, delimiter=";" if semicolons else ","))
         except csv.Error as exc:
             raise _error(
                 f"{source}, line {i}: not a valid CSV row ({exc}); write one reading per line, "
@@ -1082,10 +1141,13 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
                 file=source,
                 line=i,
             )
+        if semicolons:
+            parsed[0] = [
+                c.replace(",", ".") if _DECIMAL_COMMA.fullmatch(c) else c for c in parsed[0]
+            ]
         rows.append(parsed[0])
     header_line = numbered[0][0]
     columns = []
-    scales: dict[str, float] = {}
     seen = set()
     for j, head in enumerate(rows[0], start=1):
         name, _, unit = head.strip().partition("[")
@@ -1138,10 +1200,7 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
                 line=header_line,
                 value=head,
             )
-        columns.append((spec, unit))
-        if spec[1] not in ("fluid", "temperature"):
-            # SI value of one of the column's unit (1.0 for a bare dimensionless column)
-            scales[spec[0]] = to_si(f"1 {unit or spec[2]}".strip(), spec[1], name)
+        columns.append((spec, unit, _column_scale(spec[1], unit or spec[2])))
     for need in ("frequency", "capacitance"):
         if need not in seen:
             raise _error(
@@ -1161,7 +1220,7 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
                 value=len(row),
             )
         vals: dict[str, Any] = {}
-        for (spec, unit), cell in zip(columns, row, strict=True):
+        for (spec, unit, scale), cell in zip(columns, row, strict=True):
             field_name, kind, default = spec
             text_value = cell.strip()
             if field_name != "frequency" and field_name != "capacitance" and text_value == "":
@@ -1172,10 +1231,10 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
             try:
                 if len(text_value) > MAX_NUMBER_CHARS or not _UNITLESS.match(text_value):
                     raise ValueError(text_value)
-                if kind == "temperature":  # an offset unit: convert through pint
+                if scale is None:
                     value = to_si(f"{text_value} {unit or default}".strip(), kind, field_name)
-                else:  # the column's unit was parsed once, above (pint took 2 ms a cell)
-                    value = float(text_value) * scales[field_name]
+                else:  # the column's unit was parsed once, at the header
+                    value = float(text_value) * scale
                     if not math.isfinite(value):
                         raise ValueError(text_value)
             except (ValueError, CapbenchError):
@@ -1202,6 +1261,17 @@ def readings_from_csv(text: str, source: str = "<readings>") -> tuple[Reading, .
 
 
 _FLUID_TEXT = " or ".join(str(k) for k in FLUIDS)
+
+
+def _column_scale(kind: str, unit: str) -> float | None:
+    """The factor from a column's unit to SI, parsed once per table rather than once per
+    cell (parsing a unit costs about 2 ms, a 100,000-row table 200 s); None where the
+    unit is not a plain factor (degC has an offset) or the column holds no quantity."""
+    if kind in ("fluid", "temperature"):
+        return None
+    if not unit:
+        return 1.0 if kind == "dimensionless" else None
+    return to_si(f"1 {unit}", kind, "unit")
 
 
 def _fluid_cell(text: str, source: str, line: int) -> int:
@@ -1528,7 +1598,28 @@ _MEASUREMENT_TABLES = {
 }
 
 
-def read_measurement(path: str | os.PathLike, *, with_readings: bool = True) -> Measurement:
+def _beside(path: Path, name: str, key: str, table: Any, allow_outside: bool) -> Path:
+    """The file a measurement names, which must stay inside the measurement's folder
+    (after links are followed) unless the user allows otherwise: a shared measurement
+    file must not make capbench read, or quote, a file elsewhere on the machine."""
+    target = path.parent / name
+    if allow_outside:
+        return target
+    folder = path.parent.resolve()
+    if Path(name).is_absolute() or not target.resolve().is_relative_to(folder):
+        raise table.error(
+            key,
+            f"= {name!r} leads outside the measurement's folder {folder}; keep the file "
+            "beside the measurement (or allow it: --allow-outside on the command line, "
+            "allow_outside=True in read_measurement)",
+            value=name,
+        )
+    return target
+
+
+def read_measurement(
+    path: str | os.PathLike, *, with_readings: bool = True, allow_outside: bool = False
+) -> Measurement:
     """Read and check a ``capbench-measurement/1`` TOML file and its readings CSV
     (``with_readings=False``: the set-up only, ``readings`` empty).
 
@@ -1547,6 +1638,9 @@ def read_measurement(path: str | os.PathLike, *, with_readings: bool = True) -> 
                       (capacitance; contacting, air_gap, liquid), spacing (air_gap),
                       empty_eps_r (liquid), spacing_half_width (micrometer), fluid1 or
                       eps_fluid1 and fluid2 or eps_fluid2 (two_fluid)
+
+    The fixture and readings files a measurement names must lie inside its folder (after
+    symbolic links are followed) unless ``allow_outside=True``.
 
     The methods and their readings columns (:func:`read_readings`; a column a method
     does not use is refused, a blank optional cell is not a reading):
@@ -1623,7 +1717,7 @@ def read_measurement(path: str | os.PathLike, *, with_readings: bool = True) -> 
             f"{min(readings_t) * 1e3:.6g} mm to {max(readings_t) * 1e3:.6g} mm, more than "
             "10 % apart; check their units"
         )
-    fixture = _measurement_fixture(fix, path)
+    fixture = _measurement_fixture(fix, path, allow_outside)
     tolerances = []
     for key in sorted(tol.data):
         half = tol.quantity(key, "length")
@@ -1664,7 +1758,7 @@ def read_measurement(path: str | os.PathLike, *, with_readings: bool = True) -> 
     readings_name = meth.text("readings")
     readings: tuple[Reading, ...] = ()
     if with_readings:
-        readings = _measurement_readings(meth, path, readings_name, method)
+        readings = _measurement_readings(meth, path, readings_name, method, allow_outside)
     if method == "micrometer":
         _check_spacing_half_width(meth, options, readings_t, readings)
     return Measurement(
@@ -1701,7 +1795,7 @@ def _in_range(table: _Table, key: str, value: float, what: str) -> float:
         raise table.error(key, f"= {table.get(key.split('[')[0])!r}: {exc}", value=value) from None
 
 
-def _measurement_fixture(fix: _Table, path: Path) -> Fixture:
+def _measurement_fixture(fix: _Table, path: Path, allow_outside: bool = False) -> Fixture:
     if "file" in fix.data:
         if set(fix.data) - {"file"}:
             raise fix.error(
@@ -1710,7 +1804,9 @@ def _measurement_fixture(fix: _Table, path: Path) -> Fixture:
                 "and arguments, not both",
             )
         name = fix.text("file")
-        target = (path.parent / name).resolve()
+        if not name.lower().endswith(".toml"):
+            raise fix.error("file", f"= {name!r} must name a .toml fixture file", value=name)
+        target = _beside(path, name, "file", fix, allow_outside)
         if target.suffix.lower() != ".toml":
             raise fix.error("file", f"= {name!r} must name a .toml fixture file", value=name)
         try:
@@ -1836,10 +1932,12 @@ def _check_spacing_half_width(
         )
 
 
-def _measurement_readings(meth: _Table, path: Path, name: str, method: str) -> tuple[Reading, ...]:
-    target = path.parent / name
-    if target.suffix.lower() != ".csv":
+def _measurement_readings(
+    meth: _Table, path: Path, name: str, method: str, allow_outside: bool = False
+) -> tuple[Reading, ...]:
+    if not name.lower().endswith(".csv"):
         raise meth.error("readings", f"= {name!r} must name a .csv readings file", value=name)
+    target = _beside(path, name, "readings", meth, allow_outside)
     try:
         readings = read_readings(target)
     except FileFormatError:
@@ -1953,25 +2051,33 @@ def _accuracy(table: _Table, key: str, required: bool = True) -> AccuracySpec | 
 
 
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r", "\n", "|", "%", "\uff1d", "\uff0b", "\uff0d")
+# what a spreadsheet may skip before deciding that a cell is a formula: spaces of every
+# kind (no-break, thin, ideographic), zero-width characters, a byte-order mark, and the
+# control characters a cell can hide (NUL, vertical tab, form feed)
+_INVISIBLE = (
+    " \u00a0\u1680\u2000\u2001\u2002\u2003\u2004\u2005\u2006\u2007\u2008\u2009\u200a"
+    "\u202f\u205f\u3000\u200b\u200c\u200d\u2060\ufeff\x00\x0b\x0c"
+)
 
 
 def safe_cell(value: Any) -> Any:
     """A value made safe for a spreadsheet: text that a spreadsheet would run as a
     formula (starting with = + - @ tab CR LF | %, their full-width forms, or any of
-    these after leading spaces) gets a leading apostrophe; numbers pass.
+    these after leading spaces of any kind, zero-width characters, a byte-order mark,
+    NUL, vertical tab or form feed) gets a leading apostrophe; numbers pass.
 
     Notes
     -----
     The usual defence against CSV formula injection (common practice, no source).
-    Leading spaces are looked through because some spreadsheets trim them before
-    deciding whether a cell is a formula.
+    Leading invisible characters are looked through because some spreadsheets trim them
+    before deciding whether a cell is a formula.
     """
     if value is None:
         return ""
     if isinstance(value, (int, float)) and not isinstance(value, bool):
         return value
     text = str(value)
-    if text.lstrip(" ").startswith(_FORMULA_START):
+    if text.lstrip(_INVISIBLE).startswith(_FORMULA_START):
         return "'" + text
     return text
 

@@ -352,6 +352,13 @@ class Polygon:
         object.__setattr__(self, "points", pts)
         if len(pts) < 3:
             raise GeometryError(f"polygon needs at least 3 points; got {len(pts)}", count=len(pts))
+        if len(pts) > MAX_POLYGON_POINTS:
+            raise GeometryError(
+                f"polygon has {len(pts):,} points; at most {MAX_POLYGON_POINTS:,} (simplify "
+                "the outline: a fixture's shape needs far fewer)",
+                count=len(pts),
+                valid=(3, MAX_POLYGON_POINTS),
+            )
         for i, (x, y) in enumerate(pts):
             _check_finite("polygon", **{f"x[{i}]": x, f"y[{i}]": y})
         if abs(self.area) <= 0:
@@ -425,15 +432,59 @@ def _polygon_edges(points: Sequence[tuple[float, float]]) -> list[Edge]:
     return [Line(points[i], points[(i + 1) % n]) for i in range(n)]
 
 
+#: the most points a polygon may have: its checks are near-linear, but a shape this
+#: detailed is a drawing to be simplified rather than a fixture (and meshes slowly)
+MAX_POLYGON_POINTS = 10_000
+
+
+def near_pairs(lo: np.ndarray, hi: np.ndarray, pad: float = 0.0) -> np.ndarray:
+    """Index pairs (i < j) of boxes ``[lo[i], hi[i]]`` (shape (n, 2) each) that meet once
+    grown by ``pad``: a uniform grid of cells about the size of a typical box, each box
+    entered in the cells it covers, so the work grows with the number of boxes (not its
+    square) unless most boxes overlap each other. Returns an (m, 2) integer array."""
+    lo = np.asarray(lo, float) - pad
+    hi = np.asarray(hi, float) + pad
+    n = len(lo)
+    if n < 2:
+        return np.zeros((0, 2), int)
+    extent = np.max(hi, axis=0) - np.min(lo, axis=0)
+    sizes = np.median(hi - lo, axis=0)
+    # cells no smaller than a typical box and no more than about 4 n of them
+    cell = np.maximum(sizes, extent / max(2.0 * math.sqrt(n), 1.0))
+    cell = np.where(cell > 0, cell, 1.0)
+    origin = np.min(lo, axis=0)
+    c0 = np.floor((lo - origin) / cell).astype(np.int64)
+    c1 = np.floor((hi - origin) / cell).astype(np.int64)
+    buckets: dict[tuple[int, int], list[int]] = {}
+    for i in range(n):
+        for cx in range(c0[i, 0], c1[i, 0] + 1):
+            for cy in range(c0[i, 1], c1[i, 1] + 1):
+                buckets.setdefault((cx, cy), []).append(i)
+    pairs = set()
+    for members in buckets.values():
+        if len(members) < 2:
+            continue
+        m = np.array(members)
+        a, b = np.triu_indices(len(m), 1)
+        i, j = m[a], m[b]
+        meet = np.all((lo[i] <= hi[j]) & (lo[j] <= hi[i]), axis=1)
+        pairs.update(zip(i[meet].tolist(), j[meet].tolist(), strict=True))
+    if not pairs:
+        return np.zeros((0, 2), int)
+    out = np.array(sorted(pairs), int)
+    return np.sort(out, axis=1)
+
+
 def _self_intersects(pts: Sequence[tuple[float, float]]) -> bool:
     n = len(pts)
-    segs = [(pts[i], pts[(i + 1) % n]) for i in range(n)]
-    for i in range(n):
-        for j in range(i + 1, n):
-            if j == i + 1 or (i == 0 and j == n - 1):
-                continue
-            if _segments_cross(*segs[i], *segs[j]):
-                return True
+    p = np.asarray(pts, float)
+    q = np.roll(p, -1, axis=0)
+    for i, j in near_pairs(np.minimum(p, q), np.maximum(p, q)):
+        i, j = int(min(i, j)), int(max(i, j))
+        if j == i + 1 or (i == 0 and j == n - 1):
+            continue
+        if _segments_cross(pts[i], pts[(i + 1) % n], pts[j], pts[(j + 1) % n]):
+            return True
     return False
 
 

@@ -24,9 +24,11 @@ from typing import Any
 
 import numpy as np
 import pint
+from uncertainties.core import AffineScalarFunc
 
 from . import validate as v
 from .capacitance import Solution, solve
+from .cautions import EDGE
 from .errors import InputError, SolverError
 from .geometry import (
     Plate,
@@ -54,11 +56,7 @@ AIR_BREAKDOWN = 3e6
 #: what a verdict compares against the target
 BASES = ("formula", "bare")
 
-SAFETY_NOTE = (
-    "Fields at electrode edges can start partial discharge or breakdown. These figures "
-    "are estimates from an ideal geometry; follow your local electrical-safety codes, "
-    "your laboratory's procedures and licensed practice for every energised test."
-)
+SAFETY_NOTE = EDGE
 
 
 # --------------------------------------------------------------------------- formula
@@ -92,12 +90,22 @@ def gap_factor(guard_gap: Any, specimen_thickness: Any) -> float:
     return _gap_factor(g, t)
 
 
-def _gap_factor(g: float, t: float) -> float:
+def _gap_factor(g: Any, t: Any) -> Any:
+    """B of d1 + B g for SI floats or uncertain values (ufloats), the one home of the
+    formula (the contacting method's effective area and the comparison use it too)."""
     x = math.pi * g / (4 * t)
-    # ln cosh x = x + log1p(exp(-2x)) - ln 2, stable for large x
-    lncosh = x + math.log1p(math.exp(-2 * x)) - math.log(2)
+    if isinstance(x, AffineScalarFunc):
+        from uncertainties import umath as m
+    elif isinstance(x, np.ndarray) and x.dtype == object:  # an array of uncertain values
+        from uncertainties import unumpy as m
+    else:  # floats or arrays of them
+        m = np
+    # ln cosh x = x + log1p(exp(-2x)) - ln 2, stable for large x (cosh overflows past
+    # x = 710, i.e. a gap 900 times the thickness)
+    lncosh = x + m.log1p(m.exp(-2 * x)) - math.log(2)
     delta = 2 * t / math.pi * lncosh
-    return 1 - 2 * delta / g
+    b = 1 - 2 * delta / g
+    return float(b) if m is np and np.ndim(b) == 0 else b  # a plain float for floats
 
 
 def formula_diameter(
@@ -817,19 +825,29 @@ class EdgeField:
         pressure; common practice, no source)."""
         return AIR_BREAKDOWN / self.governing
 
+    def text(self) -> str:
+        """The one statement of the edge field, in kV/m per volt applied, that the
+        caution, the field map and the reports all show (a field map's largest vertex
+        value at a sharp edge is singular and mesh-dependent, so it is not a figure)."""
+        if self.sharp:
+            return (
+                f"{self.field_at_distance / 1e3:.4g} kV/m per volt at "
+                f"{self.distance * 1e6:.3g} um from the sharp edge (unbounded at the edge "
+                "itself)"
+            )
+        shown = self.peak_in_medium if self.peak_in_medium is not None else self.peak
+        return f"peak {shown / 1e3:.4g} kV/m per volt applied"
+
     def caution(self) -> str:
         """A caution about the edge field, with the deferral to local codes."""
         parts = []
         if self.sharp:
             parts.append(
-                "Sharp electrode edges: the field there is unbounded in theory; at "
-                f"{self.distance * 1e6:.3g} um from the edge it is "
-                f"{self.field_at_distance / 1e3:.4g} kV/m per volt. Rounded edges "
+                f"Sharp electrode edges: the edge field is {self.text()}. Rounded edges "
                 "(edge_radius) bound it."
             )
         else:
-            shown = self.peak_in_medium if self.peak_in_medium is not None else self.peak
-            parts.append(f"Peak edge field {shown / 1e3:.4g} kV/m per volt applied.")
+            parts.append(f"Edge field: {self.text()}.")
         vb = self.voltage_at_air_breakdown
         parts.append(
             f"Air (about 3 kV/mm at atmospheric pressure, common practice) would reach "

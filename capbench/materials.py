@@ -135,6 +135,14 @@ class Material:
     u_note: str = "assigned by capbench, not from the source"
     formula: Callable[[Any], Any] | None = None
 
+    @property
+    def hazard(self) -> str:
+        """The caution for handling this material ('' where none is listed): several
+        reference liquids are flammable or toxic (capbench.cautions.FLUIDS)."""
+        from .cautions import for_fluids
+
+        return for_fluids([self.key])
+
     def at(self, temperature: Any = None) -> Any:
         """The permittivity at ``temperature`` (default: the reference temperature), as
         a value with uncertainty: the value's own standard uncertainty is an input named
@@ -265,22 +273,24 @@ _TABLE = (
     Material(
         "sapphire perpendicular",
         "sapphire, field perpendicular to the c axis",
-        9.39,
+        9.3899,
         22.0,
         None,
         0.01,
-        "J. Krupka et al., Meas. Sci. Technol. 10, 387 (1999), near 295 K (from memory)",
+        "J. Krupka et al., Meas. Sci. Technol. 10, 387 (1999), near 295 K (from memory, "
+        "not read in the paper while writing this entry)",
         phase="solid",
         frequency="microwave (static value within 0.1 %)",
     ),
     Material(
         "sapphire parallel",
         "sapphire, field parallel to the c axis",
-        11.58,
+        11.586,
         22.0,
         None,
         0.01,
-        "J. Krupka et al., Meas. Sci. Technol. 10, 387 (1999), near 295 K (from memory)",
+        "J. Krupka et al., Meas. Sci. Technol. 10, 387 (1999), near 295 K (from memory, "
+        "not read in the paper while writing this entry)",
         phase="solid",
         frequency="microwave (static value within 0.1 %)",
     ),

@@ -29,20 +29,14 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
+from .cautions import ELECTRICAL
 from .errors import InputError
 from .geometry import Fixture
 
 #: lines of monospaced text on one PDF page
 PDF_LINES_PER_PAGE = 78
 
-CAUTION = (
-    "Caution: capacitance bridges, LCR meters and test fixtures can carry high voltage, "
-    "and the field at electrode edges can start partial discharge or breakdown in air "
-    "and in specimens. capbench computes fields and permittivities from an idealised "
-    "geometry; it does not make a set-up safe. Follow your local electrical-safety "
-    "codes, your laboratory's procedures and licensed practice for every energised "
-    "measurement."
-)
+CAUTION = ELECTRICAL
 
 REFERENCES = {
     "gum": "JCGM 100:2008, Evaluation of measurement data - Guide to the expression of "
@@ -97,12 +91,9 @@ def _fmt_u(value: float, U: float) -> tuple[str, str]:
 
 
 def _hz(f: float | None) -> str:
-    if f is None:
-        return "-"
-    for scale, unit in ((1e9, "GHz"), (1e6, "MHz"), (1e3, "kHz")):
-        if f >= scale:
-            return f"{f / scale:g} {unit}"
-    return f"{f:g} Hz"
+    from .units import frequency_text
+
+    return "-" if f is None else frequency_text(f)
 
 
 def _param_text(key: str, value: Any) -> str:
@@ -327,19 +318,6 @@ class Report:
 
     # ------------------------------------------------------------------ PDF
 
-    def pdf_plan(self) -> list[str]:
-        """What each PDF page holds, in order: "summary", "figures", one
-        "budget: <name>" per budget (continued pages repeat it), "details"."""
-        plan = ["summary"]
-        if self.figures:
-            plan.append("figures")
-        for b in self.content.get("budgets", []):
-            n = len(b["rows"]) + 6
-            plan += [f"budget: {b['name']}"] * max(1, math.ceil(n / PDF_LINES_PER_PAGE))
-        details = sum(len(lines) + 3 for _h, lines in self._detail_sections())
-        plan += ["details"] * max(1, math.ceil(details / PDF_LINES_PER_PAGE))
-        return plan
-
     def _detail_sections(self) -> list[tuple[str, list[str]]]:
         skip = ("Summary", "Result", "Field solution", "Caution")
         return [
@@ -349,32 +327,11 @@ class Report:
         ]
 
     def pdf(self) -> bytes:
-        """The report as PDF bytes (matplotlib's PDF backend, TrueType text)."""
-        import matplotlib
-        from matplotlib.backends.backend_pdf import PdfPages
-        from matplotlib.figure import Figure
+        """The report as a typeset PDF (A4, reportlab): the result statement whole on
+        the first page, tables sized to the text area, figures scaled to its width."""
+        from .report_pdf import render
 
-        sections = dict(self.text_sections())
-        pages: list[list[tuple[str, list[str]]]] = []
-        first = [("Summary", sections["Summary"])]
-        for key in ("Result", "Field solution", "Caution"):
-            if key in sections:
-                first.append((key, sections[key]))
-        pages.append(first)
-        budget_pages = []
-        for h, lines in self.text_sections():
-            if h.startswith("Uncertainty budget"):
-                budget_pages += _paginate([(h, lines)])
-        detail_pages = _paginate(self._detail_sections())
-        buf = io.BytesIO()
-        with matplotlib.rc_context({"pdf.fonttype": 42, "font.family": "DejaVu Sans"}):
-            with PdfPages(buf, metadata={"Title": self.title, "Creator": "capbench"}) as pdf:
-                pdf.savefig(_text_page(self.title, pages[0], Figure))
-                if self.figures:
-                    pdf.savefig(self._figure_page(Figure))
-                for page in budget_pages + detail_pages:
-                    pdf.savefig(_text_page(self.title, page, Figure))
-        return buf.getvalue()
+        return render(self)
 
     def _figure_page(self, Figure):
         import matplotlib.image as mpimg
@@ -402,10 +359,7 @@ class Report:
             elif fmt == "json":
                 _atomic_write(path, self.json(figures=True))
             elif fmt == "pdf":
-                path.parent.mkdir(parents=True, exist_ok=True)
-                tmp = path.with_name(f".{path.name}.part")
-                tmp.write_bytes(self.pdf())
-                tmp.replace(path)
+                _atomic_write(path, self.pdf())
             else:
                 raise InputError(f"report format {fmt!r}; valid: html, pdf, json", value=fmt)
             out.append(str(path))
@@ -509,6 +463,10 @@ _CSS = (
 # --------------------------------------------------------------------------- build
 
 
+#: what a measurement record holds: who measured what, where, with what and when
+RECORD_FIELDS = ("lab", "bench", "operator", "specimen", "instrument", "date of measurement")
+
+
 def build(
     fixture: Fixture | None = None,
     *,
@@ -521,6 +479,7 @@ def build(
     lab: str | None = None,
     operator: str | None = None,
     specimen_id: str | None = None,
+    record: Mapping[str, str] | None = None,
     notes: str = "",
     coverage: float = 0.95,
     rtol: float = 1e-6,
@@ -534,26 +493,28 @@ def build(
     fixture : Fixture, optional
         The fixture; default the measurement's, the extraction's or the solution's.
     extraction : Extraction, optional
-        Result of :mod:`capbench.extract` (permittivity, loss, budgets). With a
-        ``measurement`` and no extraction, the measurement is extracted here
-        (:meth:`capbench.files.Measurement.extract` at ``rtol``).
+        Result of :mod:`capbench.extract` (permittivity, loss, budgets); required with a
+        ``measurement`` (a report lays out results, it never solves or extracts).
     solution : Solution, optional
-        A solved fixture for the field plot and the solution summary; without one the
-        fixture is solved here for the plot (rtol 1e-4: a drawing), at the extracted
-        eps' when there is an extraction.
+        A solved fixture for the field plot and the solution summary (e.g.
+        :meth:`capbench.extract.Extraction.solution`); without one there is no field plot.
     measurement : Measurement, optional
         The measurement file's contents: lab, operator, specimen, readings, conditions.
     guard : GuardCheck, optional
         A guard-ring check to include.
     comparison : Comparison, optional
         A measured-against-ideal breakdown to include.
+    record : mapping of str to str, optional
+        The measurement record as entered on the page (keys ``lab``, ``bench``,
+        ``operator``, ``specimen``, ``instrument``, ``date of measurement``); a value
+        given here replaces the measurement file's, an empty one leaves it out.
     title, lab, operator, specimen_id, notes : str, optional
         Override or add to the metadata.
     coverage : float
         Coverage probability of the expanded uncertainties (k from the t distribution
         with the effective degrees of freedom).
     rtol : float
-        Accuracy of the extraction when it is run here.
+        Unused (kept for callers of earlier versions; reports no longer extract).
     field_plot : bool
         Include the potential and field-line plot.
     created : str, optional
@@ -568,7 +529,7 @@ def build(
     InputError
         When nothing to report is given, or an argument has the wrong type.
     """
-    from . import __version__
+    from ._version import __version__
     from .capacitance import Solution
     from .extract import Extraction
 
@@ -578,7 +539,10 @@ def build(
             value=coverage,
         )
     if measurement is not None and extraction is None:
-        extraction = measurement.extract(rtol=rtol)
+        raise InputError(
+            "report.build lays out results and never solves: pass the measurement's "
+            "extraction too (extraction=measurement.extract())"
+        )
     for name, value, cls in (
         ("extraction", extraction, Extraction),
         ("solution", solution, Solution),
@@ -613,6 +577,10 @@ def build(
         meta["fixture"] = fixture.name
     if extraction is not None:
         meta["method"] = extraction.method
+    for key, value in (record or {}).items():
+        if key not in RECORD_FIELDS:
+            raise InputError(f"record field {key!r}; valid: {', '.join(RECORD_FIELDS)}", value=key)
+        meta[key] = str(value).strip()
     if notes:
         meta["notes"] = notes
     meta = {k: v for k, v in meta.items() if v}
@@ -688,7 +656,7 @@ def build(
             )
         )
     if field_plot and fixture is not None:
-        sol = solution or _plot_solution(fixture, extraction)
+        sol = solution  # the caller solves (Extraction.solution()); a report never does
         if sol is not None:
             from .plots import potential_map
 
@@ -703,7 +671,13 @@ def build(
             )
     if extraction is not None:
         fig = extraction.plot()
-        figures.append(("result", "Result against frequency (error bars k = 2)", _figure_png(fig)))
+        figures.append(
+            (
+                "result",
+                "Result against frequency (error bars: expanded uncertainty, 95 % coverage)",
+                _figure_png(fig),
+            )
+        )
         _close(fig)
     return Report(content, tuple(figures))
 
@@ -717,27 +691,9 @@ def _png(func, obj) -> bytes:
 
 
 def _close(fig) -> None:
-    import matplotlib.pyplot as plt
-
-    plt.close(fig)
-
-
-def _plot_solution(fixture: Fixture, extraction: Any):
-    from threadpoolctl import threadpool_limits
-
-    from .capacitance import solve
-    from .errors import CapbenchError
-
-    fx = fixture
-    if extraction is not None:
-        fx = extraction.fixture
-        if fx.specimen is not None:
-            fx = fx.with_permittivity(fx.specimen, float(extraction.points[0].eps_r.n))
-    try:
-        with threadpool_limits(limits=1, user_api="blas"):
-            return solve(fx, rtol=1e-4)
-    except CapbenchError:
-        return None  # a report without the field plot, rather than no report
+    """Release a figure's canvas memory (figures here are made without pyplot, so
+    there is no pyplot registry to close them in)."""
+    fig.clear()
 
 
 def _solution_summary(sol: Any) -> dict[str, str]:
@@ -759,7 +715,7 @@ def results(extraction: Any, coverage: float = 0.95) -> dict:
     loss = extraction.points[0].tan_delta is not None
     header = ["frequency", "eps'", "U(eps')", "k", "closed form", "correction"]
     if loss:
-        header += ["tan delta", "U(tan delta)", "k"]
+        header += ["eps''", "U(eps'')", "tan delta", "U(tan delta)", "k"]
     rows = []
     data = []
     for p in extraction.points:
@@ -785,9 +741,13 @@ def results(extraction: Any, coverage: float = 0.95) -> dict:
         if loss:
             Ul, kl = p.loss_budget.expanded(p=coverage)
             tv, tU = _fmt_u(p.tan_delta.n, Ul)
-            row += [tv, tU, f"{kl:.2f}"]
+            U_loss = kl * p.eps_loss.s  # the k of tan delta's budget (same inputs)
+            lv, lU = _fmt_u(p.eps_loss.n, U_loss)
+            row += [lv, lU, tv, tU, f"{kl:.2f}"]
             item.update(
                 eps_loss=p.eps_loss.n,
+                u_eps_loss=p.eps_loss.s,
+                U_eps_loss=U_loss,
                 tan_delta=p.tan_delta.n,
                 u_tan_delta=p.tan_delta.s,
                 U_tan_delta=Ul,

@@ -305,6 +305,12 @@ def coaxial_cell(
         )
     wl = 0.1 * b if wall is None else v.length(wall, "wall")
     guarded = guard_length is not None
+    if guard_gap is not None and not guarded:
+        raise GeometryError(
+            f"guard_gap = {guard_gap!r} needs guard_length (the guard tubes' length): a "
+            "coaxial cell without guard tubes has no guard gap; give both, or neither",
+            value=guard_gap,
+        )
     if guarded:
         Lg = v.length(guard_length, "guard_length")
         gg = v.length(guard_gap if guard_gap is not None else 0.02 * L, "guard_gap")

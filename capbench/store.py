@@ -27,7 +27,6 @@ user_version" (sqlite.org).
 from __future__ import annotations
 
 import datetime
-import getpass
 import json
 import math
 import os
@@ -346,14 +345,16 @@ class BenchLog:
         ``fixture``: a Fixture (kept as its fixture-file text) or None; ``readings``:
         :class:`capbench.files.Reading` rows; ``results``: dicts with the keys of a
         report's result points (eps_r, u_eps_r, U_eps_r, k_eps_r, tan_delta, ...).
-        ``operator``: who measured (default: the login name).
+        ``operator``: who measured, from the measurement record; left empty when not
+        given (the login of the machine that ran the command is not who measured: a
+        shared bench computer logged every entry as "root").
         """
         if kind not in KINDS:
             raise StoreError(f"entry kind = {kind!r}; valid: {list(KINDS)}", value=kind)
         _check_results(results)
-        from . import __version__
+        from ._version import __version__
 
-        who = operator if operator else _login()
+        who = operator or ""
         fixture_toml = fixture_name = None
         if fixture is not None:
             from .files import fixture_to_toml
@@ -503,15 +504,21 @@ class BenchLog:
 
     def entry(self, entry_id: int) -> Entry:
         """One entry with its readings, results and fixture text."""
-        row = self._conn.execute(
-            "SELECT e.*, f.name AS fixture_name, f.toml AS fixture_toml FROM entries e "
-            "LEFT JOIN fixtures f ON f.id = e.fixture_id WHERE e.id = ?",
-            (entry_id,),
-        ).fetchone()
+        in_range = isinstance(entry_id, int) and -(2**63) <= entry_id < 2**63
+        row = (
+            self._conn.execute(
+                "SELECT e.*, f.name AS fixture_name, f.toml AS fixture_toml FROM entries e "
+                "LEFT JOIN fixtures f ON f.id = e.fixture_id WHERE e.id = ?",
+                (entry_id,),
+            ).fetchone()
+            if in_range  # SQLite's integers are 64-bit: a longer one raised OverflowError
+            else None
+        )
         if row is None:
             last = self._conn.execute("SELECT max(id) FROM entries").fetchone()[0]
             raise StoreError(
-                f"no bench-log entry {entry_id!r}; valid ids: 1 to {last or 0}",
+                f"no bench-log entry {entry_id!r}; "
+                + (f"valid ids: 1 to {last}" if last else "the log has no entries yet"),
                 value=entry_id,
             )
         readings = tuple(
@@ -619,13 +626,6 @@ def _finite(x: Any) -> Any:
     if isinstance(x, float) and not math.isfinite(x):
         return None
     return x
-
-
-def _login() -> str:
-    try:
-        return getpass.getuser()
-    except Exception:  # no login name in some containers
-        return ""
 
 
 def _entry(row: sqlite3.Row, **extra: Any) -> Entry:

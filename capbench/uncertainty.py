@@ -644,11 +644,12 @@ class Budget:
         return coverage_factor(self.dof, p)
 
     def expanded(self, k: float | None = None, p: float | None = None) -> tuple[float, float]:
-        """Expanded uncertainty U = k u_c and the k used: k = 2 by default, ``k`` if
-        given, else from the t distribution with the effective degrees of freedom at
-        coverage probability ``p`` (GUM 6.2, G.4)."""
+        """Expanded uncertainty U = k u_c and the k used: ``k`` if given, else from the t
+        distribution with the effective degrees of freedom at coverage probability ``p``
+        (default :data:`COVERAGE`, 95 %; GUM 6.2, G.4). This is the one rule every
+        statement, table, figure and document of capbench uses."""
         if k is None:
-            k = 2.0 if p is None else self.coverage_factor(p)
+            k = self.coverage_factor(COVERAGE if p is None else p)
         if not (k > 0):
             raise InputError(f"coverage factor k = {k!r}; must be > 0", value=k)
         return k * self.u, k
@@ -690,9 +691,14 @@ class Budget:
         lines.append("-" * len(head))
         lines.append(
             f"{self.name} = {self.value:.7g}{unit}, u_c = {self.u:.{digits}g}{unit}, "
-            f"effective dof = {dof}, U = {U:.{digits}g}{unit} (k = {k:g})"
+            f"effective dof = {dof}, U = {U:.{digits}g}{unit} (k = {k:.2f}, "
+            f"{100 * COVERAGE:g} % coverage)"
         )
         return "\n".join(lines)
+
+
+#: the coverage probability of every expanded uncertainty capbench states
+COVERAGE = 0.95
 
 
 def coverage_factor(dof: float, p: float = 0.95) -> float:

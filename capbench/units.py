@@ -27,11 +27,17 @@ NUMBER_PATTERN = r"[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?"
 _NUMBER_UNIT = re.compile(rf"^({NUMBER_PATTERN})\s*(.*)$", re.DOTALL)
 # what a unit may be made of before pint sees it: names, "*", "/", brackets, small
 # exponents and a "1" over something ("1/s"). pint evaluates number arithmetic in unit
-# text, and "9**9**9 m" kept it computing a number of 370 million digits (a hang)
+# text: "9**9**9 m" kept it computing a number of 370 million digits, and a chain of
+# exponents on a unit ("mm**9**9**9") did the same, so each exponent must follow a name
+# or a bracket, and the exponent each name ends up with is bounded before pint is called
 _UNIT_TOKEN = re.compile(
-    r"\s*(?:[^\W\d]\w*|%|\u00b0\w*|(?:\*\*|\^)\s*[-+]?\d{1,2}(?:\.\d{1,3})?|[*/()]|1(?=\s*/))"
+    r"\s*(?:(?P<name>[^\W\d]\w*|%|\u00b0\w*)|(?P<exp>(?:\*\*|\^)\s*[-+]?\d{1,2}(?:\.\d{1,3})?)"
+    r"|(?P<op>[*/])|(?P<open>\()|(?P<close>\))|(?P<one>1(?=\s*/)))"
 )
 MAX_UNIT_CHARS = 64
+#: the largest power any unit name may reach ("mm**3" is fine, "(mm**4)**4" is not)
+MAX_UNIT_POWER = 12
+_MAX_BRACKETS = 3
 
 #: Vacuum permittivity, F/m (CODATA 2022).
 EPS0 = 8.8541878188e-12
@@ -66,48 +72,84 @@ _EXAMPLE = {
 }
 
 
-MAX_UNIT_DEPTH = 3
+def echo(value: Any) -> str:
+    """A value as a message should echo it: text as typed (quoted), a quantity as its
+    number and unit ('1e+308 km', not pint's ``<Quantity(1e+308, 'kilometer')>``)."""
+    if isinstance(value, pint.Quantity):
+        try:
+            return repr(f"{value.magnitude:g} {value.units:~P}".strip())
+        except (TypeError, ValueError):
+            return repr(f"{value.magnitude} {value.units:~P}".strip())
+    return repr(value)
 
 
 def _plain_unit(unit: str) -> bool:
-    """Whether ``unit`` is made only of :data:`_UNIT_TOKEN` pieces (no number arithmetic).
-
-    The work is bounded before pint evaluates anything: at most :data:`MAX_UNIT_CHARS`
-    characters, an exponent only after a name or a closing bracket (never a chain such as
-    ``m**9**9``, which pint evaluates right to left as 9**(9**9)), and brackets at most
-    :data:`MAX_UNIT_DEPTH` deep.
-    """
+    """Whether ``unit`` is names joined by * and /, in at most a few brackets, each name
+    raised to at most :data:`MAX_UNIT_POWER` (exponents follow a name or a bracket, never
+    another exponent). The work is linear in the length, which is bounded first."""
     if len(unit) > MAX_UNIT_CHARS:
         return False
     pos = 0
-    previous = ""  # kind of the last token: "name", "exp", "op", "(" or ")"
-    depth = 0
+    prev = None  # kind of the previous token
+    # the powers of the names in each open bracket, so an exponent on ")" can scale them
+    groups: list[list[float]] = [[]]
+    last: list[float] | None = None  # the powers the next exponent applies to
     while pos < len(unit):
         m = _UNIT_TOKEN.match(unit, pos)
         if m is None or m.end() == pos:
-            return unit[pos:].strip() == ""
-        token = m.group(0).strip()
-        if token.startswith(("**", "^")):
-            if previous not in ("name", ")"):
-                return False
-            kind = "exp"
-        elif token == "(":
-            depth += 1
-            if depth > MAX_UNIT_DEPTH:
-                return False
-            kind = "("
-        elif token == ")":
-            depth -= 1
-            if depth < 0:
-                return False
-            kind = ")"
-        elif token in ("*", "/"):
-            kind = "op"
-        else:
-            kind = "name"
-        previous = kind
+            if unit[pos:].strip() == "":
+                break
+            return False
+        kind = m.lastgroup
         pos = m.end()
-    return True
+        if kind == "exp":
+            if prev not in ("name", "close") or last is None:
+                return False
+            power = float(m.group("exp").lstrip("*^ \t"))
+            for i in range(len(last)):
+                last[i] *= power
+            if any(abs(p) > MAX_UNIT_POWER for p in last):
+                return False
+            last = None
+        elif kind == "name":
+            groups[-1].append(1.0)
+            last = _Slot(groups[-1], len(groups[-1]) - 1)
+        elif kind == "open":
+            if len(groups) > _MAX_BRACKETS:
+                return False
+            groups.append([])
+            last = None
+        elif kind == "close":
+            if len(groups) == 1:
+                return False
+            inner = groups.pop()
+            start = len(groups[-1])
+            groups[-1].extend(inner)
+            last = _Slot(groups[-1], start, len(groups[-1]))
+        else:
+            last = None
+        prev = kind
+    return len(groups) == 1
+
+
+class _Slot:
+    """A window onto some of a list's items, so an exponent can scale them in place."""
+
+    def __init__(self, items: list[float], start: int, stop: int | None = None):
+        self.items, self.start = items, start
+        self.stop = start + 1 if stop is None else stop
+
+    def __len__(self) -> int:
+        return self.stop - self.start
+
+    def __getitem__(self, i: int) -> float:
+        return self.items[self.start + i]
+
+    def __setitem__(self, i: int, value: float) -> None:
+        self.items[self.start + i] = value
+
+    def __iter__(self):
+        return iter(self.items[self.start : self.stop])
 
 
 def base_unit(kind: str) -> str:
@@ -140,7 +182,8 @@ def parse_quantity(value: Any, name: str = "value") -> pint.Quantity:
             q = Q_(float(number), unit or "")
         except Exception as exc:  # pint raises several unrelated types here
             raise InputError(
-                f"{name} = {value!r} is not a number with a unit (e.g. '25 mm', '4.7 pF'): {exc}",
+                f"{name} = {echo(value)} is not a number with a unit "
+                f"(e.g. '25 mm', '4.7 pF'): {exc}",
                 name=name,
                 value=value,
             ) from None
@@ -150,12 +193,12 @@ def parse_quantity(value: Any, name: str = "value") -> pint.Quantity:
             return Q_(float(value), "")
         except OverflowError:  # an integer beyond the float range
             raise InputError(
-                f"{name} = {value!r} is too large to be a number (at most about 1.8e308)",
+                f"{name} = {echo(value)} is too large to be a number (at most about 1.8e308)",
                 name=name,
                 value=value,
             ) from None
     raise InputError(
-        f"{name} = {value!r} has type {type(value).__name__}; give a number, "
+        f"{name} = {echo(value)} has type {type(value).__name__}; give a number, "
         "a string such as '25 mm', or a pint Quantity",
         name=name,
         value=value,
@@ -173,6 +216,22 @@ def to_si(value: Any, kind: str, name: str = "value") -> float:
     wrong or the number is not finite.
     """
     unit = _BASE_UNIT[kind]
+    if type(value) is float or (isinstance(value, Real) and not isinstance(value, bool)):
+        # a plain number is already in the base unit: no pint (a quantity costs ~20 us,
+        # which a 100,000-row readings table pays several times a row)
+        try:
+            number = float(value)
+        except OverflowError:  # an integer beyond the float range
+            raise InputError(
+                f"{name} = {echo(value)} is too large to be a number (at most about 1.8e308)",
+                name=name,
+                value=value,
+            ) from None
+        if not math.isfinite(number):
+            raise InputError(
+                f"{name} = {echo(value)} is not a finite number", name=name, value=value
+            )
+        return number
     q = parse_quantity(value, name)
     # only a bare number is taken in the base unit; "5 %" or "2 mm/m" are dimensionless
     # but carry a unit, and must convert (0.05), never pass as 5 m or 5 F
@@ -184,7 +243,7 @@ def to_si(value: Any, kind: str, name: str = "value") -> float:
     except pint.DimensionalityError:
         shown = unit or "a plain number"
         raise InputError(
-            f"{name} = {value!r} is not a {kind}; give it in {shown} or another "
+            f"{name} = {echo(value)} is not a {kind}; give it in {shown} or another "
             f"{kind} unit (got {q.units:~P})",
             name=name,
             value=value,
@@ -193,13 +252,13 @@ def to_si(value: Any, kind: str, name: str = "value") -> float:
     except (TypeError, ValueError, OverflowError):
         # a quantity holding an array, a complex number or an uncertain value
         raise InputError(
-            f"{name} = {value!r} is not a single real number with a unit; give one value, "
+            f"{name} = {echo(value)} is not a single real number with a unit; give one value, "
             f"e.g. {_EXAMPLE.get(kind, '1')!r}",
             name=name,
             value=value,
         ) from None
     if not math.isfinite(number):
-        raise InputError(f"{name} = {value!r} is not a finite number", name=name, value=value)
+        raise InputError(f"{name} = {echo(value)} is not a finite number", name=name, value=value)
     return number
 
 
@@ -220,3 +279,12 @@ def fmt(q: pint.Quantity | float, unit: str | None = None, digits: int = 6) -> s
             q = q.to(unit)
         return f"{q.magnitude:.{digits}g} {q.units:~P}"
     return f"{q:.{digits}g}" + (f" {unit}" if unit else "")
+
+
+def frequency_text(hz: float) -> str:
+    """A frequency as the trade writes it: "100 Hz", "1 kHz", "2.5 MHz" (never
+    "1e+06 Hz"); six significant digits at most."""
+    for unit, scale in (("GHz", 1e9), ("MHz", 1e6), ("kHz", 1e3)):
+        if abs(hz) >= scale:
+            return f"{hz / scale:.6g} {unit}"
+    return f"{hz:.6g} Hz"

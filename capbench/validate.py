@@ -40,7 +40,8 @@ import math
 import warnings
 from typing import Any
 
-from .errors import InputError, SolverError
+from .errors import CapbenchWarning, InputError, SolverError  # the warning: re-exported
+from .options import SOLVERS  # re-exported: the choices validate checks
 from .units import to_si
 
 LIMITS: dict[str, tuple[float, float, str]] = {
@@ -106,10 +107,6 @@ SUSPICIOUS_D = 0.1
 #: a permittivity above this is legal (ferroelectric ceramics) but more often a thickness
 #: or area typed in the wrong unit (common practice, no source)
 SUSPICIOUS_EPS_R = 5000.0
-
-
-class CapbenchWarning(UserWarning):
-    """A legal but suspicious input (a gap a thousand times smaller than its electrode)."""
 
 
 def check(value: Any, what: str, name: str, *, positive: bool = True) -> float:
@@ -205,10 +202,6 @@ def solver_budget(time_budget: Any, max_dofs: Any) -> tuple[float, int]:
             valid=LIMITS["dofs"][:2],
         )
     return t, int(n)
-
-
-#: how a solve's refined levels may be solved (see capbench.field.solve_unit_drives)
-SOLVERS = ("auto", "direct", "multigrid")
 
 
 def solver(value: Any) -> str:

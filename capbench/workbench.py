@@ -42,10 +42,11 @@ import pint
 
 from . import files, rigs
 from . import validate as v
+from .cautions import ELECTRICAL
 from .errors import CapbenchError, FileFormatError, InputError
 from .geometry import Fixture
 from .uncertainty import AccuracySpec, type_a, type_b
-from .units import Q_, parse_quantity, to_si
+from .units import NUMBER_PATTERN, Q_, frequency_text, parse_quantity, to_si
 
 #: largest readings table accepted from the page (bytes); a bench table is a few kB
 MAX_TABLE_BYTES = 1_000_000
@@ -75,14 +76,6 @@ def compact(x: float, digits: int = 6) -> str:
     if x is None or not math.isfinite(x):
         return "-"
     return f"{x:.{digits}g}".replace("e+0", "e+").replace("e-0", "e-")
-
-
-def frequency_text(hz: float) -> str:
-    """A frequency in Hz, kHz, MHz or GHz ("1 kHz", "2.5 MHz")."""
-    for unit, scale in (("GHz", 1e9), ("MHz", 1e6), ("kHz", 1e3)):
-        if abs(hz) >= scale:
-            return f"{compact(hz / scale)} {unit}"
-    return f"{compact(hz)} Hz"
 
 
 def with_uncertainty(x: float, u: float, digits_u: int = 2, power: int | None = None) -> str:
@@ -123,7 +116,9 @@ def capacitance_text(farads: float, digits: int = 7) -> str:
 
 # --------------------------------------------------------------------------- typed values
 
-_NUMBER = re.compile(r"^[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?$")
+# the one number pattern (units.NUMBER_PATTERN): "\d+\.?\d*" backtracks quadratically on
+# a long run of digits that fails to match (20,000 digits and a letter: 7 s here)
+_NUMBER = re.compile(rf"^{NUMBER_PATTERN}$")
 
 #: kind of entry -> (kind of quantity for units.to_si, unit of a bare number)
 _UNITS = {
@@ -643,7 +638,7 @@ def _reading_value(raw: str, label: str, qkind: str, unit: str, name: str, limit
 
 def _trailing_unit(text: str) -> str:
     """The unit at the end of "0.004 pF" ('' for a bare number)."""
-    m = re.match(r"^\s*[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?\s*(.*)$", text)
+    m = re.match(rf"^\s*{NUMBER_PATTERN}\s*(.*)$", text, re.DOTALL)
     return m.group(1).strip() if m else ""
 
 
@@ -1128,6 +1123,9 @@ class Demo:
     method: str
     method_texts: dict[str, str]
     table: str
+    #: the demo's measurement record (lab, operator, specimen, ...): shown and reported
+    #: only while the page holds the demo's own fixture and readings
+    record: dict[str, str] = field(default_factory=dict)
 
 
 def demo() -> Demo:
@@ -1161,6 +1159,14 @@ def demo() -> Demo:
         m.method,
         mtexts,
         csv_path.read_text(encoding="utf-8"),
+        {
+            "lab": m.lab,
+            "bench": m.bench,
+            "operator": m.operator,
+            "specimen": m.specimen_id,
+            "instrument": m.instrument,
+            "date of measurement": m.date,
+        },
     )
 
 
@@ -1230,24 +1236,72 @@ def _column_power(values: Sequence[float]) -> int:
     return math.floor(math.log10(max(finite)))
 
 
-def point_rows(extraction: Any, k: float = 2.0) -> list[dict[str, str]]:
+def eps_statement(point: Any, monte_carlo: Any = None) -> tuple[str, str]:
+    """The one statement of eps' at a point: (value text, how it was stated).
+
+    The GUM framework's interval (eps' ± U, k from the effective degrees of freedom, 95 %
+    coverage) unless a Monte Carlo check of this point (JCGM 101) found it not adequate;
+    then the Monte Carlo coverage interval is the result, as JCGM 101 clause 8 says.
+    """
+    U, k = point.budget.expanded()
+    if monte_carlo is not None and monte_carlo.adequate is False:
+        lo, hi = monte_carlo.low, monte_carlo.high
+        digits = _interval_digits(lo, hi)
+        value = f"{lo:.{digits}f} to {hi:.{digits}f}"
+        how = (
+            f"95 % coverage interval from the Monte Carlo method (JCGM 101, "
+            f"{monte_carlo.trials:,} trials): the GUM framework's ± {sig(U, 2)} "
+            f"(k = {k:.2f}) was not adequate here"
+        )
+        return value, how
+    how = (
+        f"expanded uncertainty, k = {k:.2f} for 95 % coverage, "
+        f"{compact(point.budget.dof, 3)} effective degrees of freedom"
+    )
+    return with_uncertainty(point.eps_r.n, U), how
+
+
+def _interval_digits(lo: float, hi: float) -> int:
+    """Decimals that show an interval's width to two significant digits."""
+    width = abs(hi - lo)
+    if not width or not math.isfinite(width):
+        return 6
+    return max(0, 1 - math.floor(math.log10(width)))
+
+
+def point_rows(extraction: Any) -> list[dict[str, str]]:
     """One row of text per frequency: eps' ± U, the closed form, the correction, eps''
-    and tan delta ± U (coverage factor ``k``)."""
+    and tan delta ± U (expanded for 95 % coverage, k of each budget: Point.expanded)."""
     rows = []
     loss_power = _column_power([p.eps_loss.n for p in extraction.points if p.tan_delta is not None])
     tan_power = _column_power([p.tan_delta.n for p in extraction.points if p.tan_delta is not None])
     for p in extraction.points:
         row = {
             "frequency": "-" if p.frequency is None else frequency_text(p.frequency),
-            "eps'": with_uncertainty(p.eps_r.n, k * p.eps_r.s),
+            "eps'": with_uncertainty(p.eps_r.n, p.expanded("eps_r")[0]),
             "eps' (parallel-plate formula)": sig(p.eps_r_ideal.n, 6),
             "field correction": f"{100 * p.correction:+.3f} %",
         }
         if p.tan_delta is not None:
-            row["eps''"] = with_uncertainty(p.eps_loss.n, k * p.eps_loss.s, power=loss_power)
-            row["tan δ"] = with_uncertainty(p.tan_delta.n, k * p.tan_delta.s, power=tan_power)
+            U_loss, U_tan = p.expanded("eps_loss")[0], p.expanded("tan_delta")[0]
+            row["eps''"] = with_uncertainty(p.eps_loss.n, U_loss, power=loss_power)
+            row["tan δ"] = with_uncertainty(p.tan_delta.n, U_tan, power=tan_power)
         rows.append(row)
     return rows
+
+
+# Markdown and the page's own markup (emoji and icon codes, LaTeX between $) that user
+# text must not trigger: a fixture name holding an image link made the browser fetch it,
+# and "9**9**9 m" in a message showed as a bold "999 m"
+_MARKUP = re.compile(r"([\\`*_{}\[\]()#+\-.!|<>~$:=^])")
+
+
+def markdown_text(value: object) -> str:
+    """``value`` as literal text inside Markdown: every character that Markdown or the
+    page's markup would act on is escaped, line breaks kept. Every message and every
+    name a user typed goes through this before the page or a summary shows it."""
+    text = str(value).replace("\r\n", "\n")
+    return "  \n".join(_MARKUP.sub(r"\\\1", line) for line in text.split("\n"))
 
 
 def markdown_summary(
@@ -1265,12 +1319,11 @@ def markdown_summary(
 
     Notes
     -----
-    Expanded uncertainties use k = 2 in the table and the t-distribution factor for
-    95 % coverage with the Welch-Satterthwaite degrees of freedom in the statement
-    of the reported point (GUM 6.2, G.4).
+    Expanded uncertainties everywhere (table, statement) use the t-distribution factor
+    for 95 % coverage with the Welch-Satterthwaite degrees of freedom (GUM 6.2, G.4).
     """
-    lines = [f"# {title}", ""]
-    lines += [f"## Fixture: {fixture.name}", "", f"- kind: `{fixture.kind}`"]
+    lines = [f"# {markdown_text(title)}", ""]
+    lines += [f"## Fixture: {markdown_text(fixture.name)}", "", f"- kind: `{fixture.kind}`"]
     for key, val in fixture.params:
         if val is None or key == "shield":
             continue
@@ -1314,18 +1367,14 @@ def markdown_summary(
         for r in rows:
             lines.append("| " + " | ".join(r.get(k, "") for k in keys) + " |")
         lines.append("")
-        lines.append("Uncertainties are expanded, k = 2.")
+        lines.append(
+            "Uncertainties are expanded for 95 % coverage, k from each budget's effective "
+            "degrees of freedom (GUM G.4)."
+        )
         p = extraction.points[index]
-        U, k = p.budget.expanded(p=0.95)
         where = "" if p.frequency is None else f" at {frequency_text(p.frequency)}"
-        lines += [
-            "",
-            f"### Budget of eps'{where}",
-            "",
-            f"eps' = {with_uncertainty(p.eps_r.n, U)} (k = {k:.2f}, about 95 % coverage, "
-            f"effective degrees of freedom {p.budget.dof:.3g})",
-            "",
-        ]
+        value, how = eps_statement(p, monte_carlo)
+        lines += ["", f"### Budget of eps'{where}", "", f"eps' = {value} ({how})", ""]
         brows = budget_rows(p.budget)
         bkeys = list(brows[0])
         lines.append("| " + " | ".join(bkeys) + " |")
@@ -1345,12 +1394,7 @@ def markdown_summary(
 
 
 #: the caution every page shows
-SAFETY = (
-    "Bridges and test fixtures can carry high voltage, and the field at electrode edges "
-    "can start partial discharge or breakdown. capbench computes fields; it does not make "
-    "a set-up safe. Follow your local electrical-safety codes, your laboratory's "
-    "procedures and licensed practice for every energised measurement."
-)
+SAFETY = ELECTRICAL
 
 
 # --------------------------------------------------------------------------- figures
@@ -1419,10 +1463,16 @@ def field_strength_figure(solution: Any, window: Sequence[float] | None = None) 
     fig.colorbar(mesh, ax=ax, label="|E| (V/m per V applied)", shrink=0.85)
     draw_fixture(fx, ax, labels=False, outline_only=True)
     if inside.any():
+        from .guard import edge_field
+
         k = int(np.argmax(np.where(inside, e, -1.0)))
         ax.plot(x[k], y[k], marker="o", mfc="none", mec="cyan", ms=10, mew=1.5)
+        try:  # the figure the caution states, not the mesh-dependent vertex value
+            note = edge_field(solution).text()
+        except CapbenchError:
+            note = "edge field: see the caution"
         ax.annotate(
-            f"largest: {sig(e[k] / 1e3, 3)} kV/m per V (mesh-dependent at a sharp edge)",
+            note,
             (x[k], y[k]),
             xytext=(-8, 10),
             textcoords="offset points",
@@ -1437,7 +1487,7 @@ def field_strength_figure(solution: Any, window: Sequence[float] | None = None) 
     return fig
 
 
-def spectrum_figure(extraction: Any, k: float = 2.0) -> Any:
+def spectrum_figure(extraction: Any) -> Any:
     """eps' and eps'' against frequency (log axis) with error bars k u, the closed
     parallel-plate form's eps' beside the corrected one. Returns a Figure."""
     from matplotlib.figure import Figure
@@ -1452,7 +1502,7 @@ def spectrum_figure(extraction: Any, k: float = 2.0) -> Any:
     axes[0].errorbar(
         f,
         a["eps_r"],
-        yerr=k * a["u_eps_r"],
+        yerr=a["U_eps_r"],
         fmt="o-",
         color="#1d6f8a",
         capsize=3,
@@ -1463,14 +1513,17 @@ def spectrum_figure(extraction: Any, k: float = 2.0) -> Any:
     axes[0].legend(fontsize=8, frameon=False)
     if loss:
         axes[1].errorbar(
-            f, a["eps_loss"], yerr=k * a["u_eps_loss"], fmt="o-", color="#7a3b69", capsize=3
+            f, a["eps_loss"], yerr=a["U_eps_loss"], fmt="o-", color="#7a3b69", capsize=3
         )
         axes[1].set_ylabel("eps''")
     for ax in axes:
         ax.set_xscale("log")
         ax.set_xlabel("frequency (Hz)")
         ax.grid(True, alpha=0.3)
-    fig.suptitle(f"{extraction.method}: error bars k = {k:g}", fontsize=10)
+    fig.suptitle(
+        f"{extraction.method}: error bars are the expanded uncertainties (95 % coverage)",
+        fontsize=10,
+    )
     return fig
 
 

@@ -49,8 +49,13 @@ def nominal(text: str) -> float:
     return float(text.split("±")[0].strip())
 
 
+def shown_text(markdown: str) -> str:
+    """What a reader sees of Markdown the page escaped (user text is shown literally)."""
+    return re.sub(r"\\(.)", r"\1", markdown)
+
+
 def errors(at: AppTest) -> list[str]:
-    return [e.value for e in at.error]
+    return [shown_text(e.value) for e in at.error]
 
 
 def images(at: AppTest) -> int:
@@ -226,8 +231,17 @@ def test_extract_single_readings_with_uncertainty_give_a_result():
     at.run()
     at.button(key="extract.run").click().run()
     assert not at.exception and not errors(at), errors(at)
-    # the same reading as the table's 1 kHz mean: eps' within the shown uncertainty
-    assert abs(nominal(metric(at, "eps' at 1 kHz")) - 2.3041) <= 0.0034
+    # the same reading as the table's 1 kHz mean: eps' within the shown uncertainty, or
+    # inside the Monte Carlo interval where the page found the GUM interval not adequate
+    # (one statement of the result: JCGM 101 clause 8)
+    shown = metric(at, "eps' at 1 kHz")
+    if " to " in shown:
+        lo, hi = (float(x) for x in shown.split(" to "))
+        assert lo <= 2.3041 <= hi and hi - lo <= 2 * 0.0034, shown
+        helps = [m.help for m in at.metric if m.label.startswith("eps' at 1 kHz")]
+        assert "Monte Carlo" in helps[0], helps
+    else:
+        assert abs(nominal(shown) - 2.3041) <= 0.0034
 
 
 def test_guard_and_comparison_pages_against_the_standards_formula():

@@ -77,8 +77,9 @@ def test_solve_takes_the_solver_choice():
 
 def test_solve_thin_discs_against_kirchhoff(tmp_path):
     # two thin coaxial discs, a = 25 mm, d = 0.5 mm (d/a = 0.02): G. Kirchhoff (1877),
-    # C = eps0 pi a^2/d + eps0 a [ln(16 pi a/d) - 1], good to about 1e-4 at d/a = 0.02
-    # (/work/shared/REFERENCES.md); checked here to 3e-4
+    # C = eps0 pi a^2/d + eps0 a [ln(16 pi a/d) - 1] (G. Kirchhoff, Monatsber. Akad.
+    # Wiss. Berlin, 1877, 144; journal from memory), good to about 1e-4 at d/a = 0.02
+    # against Love's equation (tests/references.py computes both); checked here to 3e-4
     a, d = 0.025, 0.0005
     path = files.write_fixture(
         cb.parallel_discs(a, d, name="invented thin discs"), tmp_path / "d.toml"
@@ -171,8 +172,8 @@ def test_guard_json_against_the_formula_and_the_library():
         "guard", CELL, "--thickness", "2 mm", "--eps", "2.3", "--rtol", "1e-5", "--workers", "1"
     )
     (case,) = data["cases"]
-    # the standard's effective diameter d1 + B g (ASTM D150 / IEC 62631-2-1, see
-    # REFERENCES.md), computed here
+    # the standard's effective diameter d1 + B g (ASTM D150 / IEC 62631-2-1; the
+    # attribution of the table form from memory), computed here
     t, g, d1 = 0.002, 0.0005, 0.05
     delta = 2 * t / math.pi * math.log(math.cosh(math.pi * g / (4 * t)))
     assert case["formula_diameter_m"] == pytest.approx(d1 + (1 - 2 * delta / g) * g, rel=1e-12)
@@ -386,7 +387,7 @@ def test_extract_micrometer_closed_form_and_the_log(tmp_path):
 def test_extract_two_fluid_closed_form_text():
     code, out, err = run("extract", TWO_FLUID, "--closed-form")
     assert code == 0, err
-    assert "QF-PMMA-02" in out and "two fluid" in out and "1000 Hz" in out
+    assert "QF-PMMA-02" in out and "two fluid" in out and "1 kHz" in out
 
 
 @pytest.mark.slow

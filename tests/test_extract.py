@@ -8,8 +8,8 @@ the published formula where one exists:
   Electrical Insulation): eps_r = C_x/C_v with C_v = eps0 A/t (contacting); the air-gap
   form eps_r = t/(t - s(1 - C0/C)); the micrometer re-set form eps_r = t/(t - delta_s);
   the guarded electrode's effective diameter d1 + B g, B = 1 - 2 delta/g,
-  delta = (2t/pi) ln cosh(pi g/(4t)) (the table form and attribution from memory, as in
-  the project's reference notes).
+  delta = (2t/pi) ln cosh(pi g/(4t)) (the table form and its attribution to ASTM D150
+  and IEC 62631-2-1 are from memory).
 * The two-fluid algebra is derived in capbench.extract.ideal_two_fluid; the check is that
   synthetic readings invert exactly.
 """

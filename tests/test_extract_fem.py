@@ -147,7 +147,7 @@ def test_budget_shares_sum_to_one(contacting_result):
             assert b.shares_total == pytest.approx(1.0, abs=1e-12)
             assert b.correlation_share == 0.0
     text = res.table()
-    assert "tan delta" in text and "1000 Hz" in text
+    assert "tan delta" in text and "1 kHz" in text
     arrays = res.arrays()
     assert arrays["eps_r"].shape == (3,) and np.all(arrays["u_tan_delta"] > 0)
 
@@ -306,9 +306,10 @@ def test_micrometer_film_below_mesh_resolution_moves_eps_as_the_closed_form_says
         expected = run(t + film, fem=False).eps_r.n - closed
         assert abs(expected) > 1e-4 * eps  # a film that matters at the 1e-4 level
         assert shift == pytest.approx(expected, rel=0.05)
-        # the model's own error is in the budget: FILM_MODEL (rectangular) of the shift
+        # the model's own error is in the budget: its half-width for this cell
+        # (rectangular) of the shift
         row = next(r for r in p.budget.rows if r.name == "air film, first-order model")
-        u_model = X.FILM_MODEL / math.sqrt(3) * abs(shift)
+        u_model = X.film_model_half_width(t, 0.02) / math.sqrt(3) * abs(shift)
         assert abs(row.contribution) == pytest.approx(u_model, rel=0.02)
 
 
@@ -317,8 +318,8 @@ def test_micrometer_first_order_film_within_its_stated_error_of_a_meshed_film(
     touching_cell, monkeypatch
 ):
     # a 20 um film (1 % of t) is meshed as it is; the first-order model, forced to take
-    # it, must land within the error the budget states for it (FILM_MODEL of the film's
-    # effect on eps'); the second method is the meshed film itself
+    # it, must land within the error the budget states for it (film_model_half_width of
+    # the film's effect on eps'); the second method is the meshed film itself
     _eps, t, s2, loaded, c1, c2 = touching_cell
     film = 20e-6
 
@@ -329,7 +330,32 @@ def test_micrometer_first_order_film_within_its_stated_error_of_a_meshed_film(
     touching, meshed = run(t), run(t + film)
     monkeypatch.setattr(X, "FILM_TIE", 0.05)
     first_order = run(t + film)
-    assert abs(first_order - meshed) <= X.FILM_MODEL * abs(first_order - touching)
+    half = X.film_model_half_width(t, 0.02)
+    assert abs(first_order - meshed) <= half * abs(first_order - touching)
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("radius_mm", [1.5, 3.0])
+def test_first_order_film_on_small_discs_within_its_stated_error(radius_mm, monkeypatch):
+    """Issue 13: on small discs (1.1 mm specimen, film 0.15 % of the spacing) the model
+    was 6.9 % and more of the film's effect off against a stated 5 %; the bound now grows
+    with t / a. Second method: the same film meshed (FILM_TIE lowered to force it)."""
+    t, frac, eps = 1.1e-3, 0.0015, 2.3
+    s2 = 0.5 * t
+    loaded = cb.parallel_discs(radius=f"{radius_mm} mm", gap=t, specimen=cb.Specimen(t, eps))
+    c1 = cb.solve(loaded, rtol=1e-7).terminal.real
+    c2 = cb.solve(cb.parallel_discs(radius=f"{radius_mm} mm", gap=s2), rtol=1e-7).terminal.real
+
+    def run(s1):
+        kw = dict(thickness=t, loaded_spacing=s1, empty_spacing=s2, rtol=RTOL)
+        return X.micrometer(loaded, capacitance=c1, empty_capacitance=c2, **kw)[0].eps_r.n
+
+    touching, first_order = run(t), run(t * (1 + frac))
+    monkeypatch.setattr(X, "FILM_TIE", frac / 2)
+    monkeypatch.setattr(X, "FILM_MESH_MIN", 0.0)
+    meshed = run(t * (1 + frac))
+    half = X.film_model_half_width(t, radius_mm * 1e-3)
+    assert abs(first_order - meshed) <= half * abs(first_order - touching)
 
 
 @pytest.fixture(scope="module")
@@ -369,9 +395,43 @@ def test_two_fluid_fits_eps_and_thickness(two_fluid_case):
     assert p.eps_r.n == pytest.approx(eps.real, rel=TOL)
     assert res.extra("thickness")[0].to("mm").magnitude.n == pytest.approx(1.5, rel=TOL)
     assert res.extra("stray")[0].to("pF").magnitude.n == pytest.approx(stray * 1e12, rel=1e-4)
-    # the loss to first order (sensitivity ratio): O(tan delta) relative
-    assert p.eps_loss.n == pytest.approx(-eps.imag, rel=1e-3)
+    # the loss is fitted in complex arithmetic (no first-order truncation)
+    assert p.eps_loss.n == pytest.approx(-eps.imag, rel=TOL)
     assert abs(p.correction) < 0.05
+
+
+def test_two_fluid_with_loss_inverts_its_forward_model():
+    """eps' 11.4, tan delta 0.017 (issue 13): fitting the real parts of the readings to
+    C(eps') missed eps' by 2.3e-4, growing as tan delta squared; the complex fit recovers
+    eps' and eps'' of readings made by the forward model (the two-fluid method of ASTM
+    D150's fluid-displacement procedure, readings from the field solver) to the solve's
+    tolerance."""
+    eps = complex(11.4, -11.4 * 0.017)
+    e1, e2 = 1.000536, 2.0243
+    true = cb.parallel_discs(radius="20 mm", gap="2 mm", specimen=cb.Specimen("1.5 mm", 11.4))
+    stray = 0.35e-12
+    c1 = reading(true, e1, e1)[0] + stray
+    c2 = reading(true, e2, e2)[0] + stray
+    r1, d1 = reading(true, eps, e1)
+    r2, d2 = reading(true, eps, e2)
+    d1, d2 = d1 * r1 / (r1 + stray), d2 * r2 / (r2 + stray)
+    nominal = cb.parallel_discs(radius="20 mm", gap="2 mm", specimen=cb.Specimen("1.52 mm", 11))
+    res = X.two_fluid(
+        nominal,
+        c1,
+        r1 + stray,
+        c2,
+        r2 + stray,
+        eps_fluid1=e1,
+        eps_fluid2=e2,
+        dissipation1=d1,
+        dissipation2=d2,
+        rtol=RTOL,
+    )
+    p = res[0]
+    assert p.eps_r.n == pytest.approx(eps.real, rel=TOL)
+    assert p.eps_loss.n == pytest.approx(-eps.imag, rel=TOL)
+    assert res.extra("thickness")[0].to("mm").magnitude.n == pytest.approx(1.5, rel=TOL)
 
 
 @pytest.fixture(scope="module")

@@ -468,8 +468,9 @@ def test_every_demo_file_reads(path):
 def test_demo_liquid_cell_against_the_coaxial_formula():
     fx = files.read_fixture(DEMO / "bench5-liquid-cell.toml")
     sol = cb.solve(fx, rtol=1e-5)
-    # coaxial cylinders: C = 2 pi eps0 eps_r L / ln(b/a) (textbook closed form, see
-    # REFERENCES.md); the guarded electrode collects the flux of about half of each
+    # coaxial cylinders: C = 2 pi eps0 eps_r L / ln(b/a) (Gauss's law; e.g. W. R. Smythe,
+    # Static and Dynamic Electricity, 3rd ed. 1968, section from memory); the guarded
+    # electrode collects the flux of about half of each
     # guard gap as well, L -> L + g (common practice, no source), hence the 0.5 % band
     a, b, length, gap, eps = 8e-3, 10e-3, 60e-3, 1e-3, 2.02
     ideal = 2 * math.pi * 8.8541878188e-12 * eps * (length + gap) / math.log(b / a)

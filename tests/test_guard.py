@@ -370,3 +370,32 @@ def test_guard_design_example(example, tmp_path):
     assert total == pytest.approx(example.MEASURED_PF, rel=1e-12)
     saved = example.save_plots(tmp_path)
     assert len(saved) >= 4 and all(p.stat().st_size > 1000 for p in saved)
+
+
+def test_effective_area_uses_the_stable_gap_factor_for_wide_gaps():
+    """d1 + B g with B g -> (4 ln 2 / pi) t as g / t grows (the limit of the formula of
+    ASTM D150 / IEC 62631-2-1, taken by hand): the effective area stays finite where
+    cosh(pi g / 4 t) overflows (g / t > 900) and equals the limit there; one formula
+    serves the contacting method and the guard check."""
+    r1, t = 0.025, 1e-6
+    g = 1e-3  # g / t = 1000
+    area = cb.guard_effective_area(r1, g, t).to("m**2").magnitude
+    limit = math.pi * (2 * r1 + 4 * math.log(2) / math.pi * t) ** 2 / 4
+    assert math.isfinite(area)
+    assert area == pytest.approx(limit, rel=1e-12)
+    d = cb.formula_diameter(2 * r1, g, t).to("m").magnitude
+    assert math.pi * d**2 / 4 == pytest.approx(area, rel=1e-14)
+
+
+def test_the_field_map_and_the_caution_state_the_same_edge_field():
+    """Issue 14: the map labelled its largest vertex value (singular at a sharp edge:
+    2327 kV/m per V) where the caution said 2.851 kV/m per volt for the same fixture;
+    both now show EdgeField.text()."""
+    from capbench import workbench as wb
+
+    sol = cb.solve(cb.parallel_discs(radius="9 mm", gap="1.2 mm"), rtol=1e-4)
+    text = cb.edge_field(sol).text()
+    assert text in cb.edge_field(sol).caution()
+    fig = wb.field_strength_figure(sol)
+    notes = [t.get_text() for ax in fig.axes for t in ax.texts]
+    assert text in notes, notes

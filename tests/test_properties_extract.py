@@ -184,8 +184,8 @@ def _sane_budget(b: U.Budget) -> None:
     if b.u > 0:
         assert b.shares_total == pytest.approx(1.0, abs=1e-9)
         assert b.dof > 0 and not math.isnan(b.dof)
-        U_, k = b.expanded()
-        assert k == 2.0 and U_ >= b.u
+        U_, k = b.expanded()  # the one rule: k = t_95 at the effective dof (GUM G.4)
+        assert k == pytest.approx(U.coverage_factor(b.dof, 0.95)) and U_ >= b.u
         for p in (0.9, 0.95, 0.99):
             assert b.expanded(p=p)[0] >= b.u
 

@@ -34,6 +34,7 @@ def rep(measurement, extraction):
     return report.build(
         measurement=measurement,
         extraction=extraction,
+        solution=extraction.solution(),
         operator="R. Quill (invented)",
         created="2024-03-15T09:00:00+00:00",
     )
@@ -95,25 +96,49 @@ def test_json_carries_the_library_numbers(rep, extraction):
     assert all(len(f["png_base64"]) > 1000 for f in with_png["figures"])
 
 
-def test_pdf_pages_and_text(rep, extraction):
+def test_pdf_is_typeset_inside_its_text_area(rep, extraction):
+    """Issue 14: a PDF a lab can sign: the result statement whole on page 1, every string
+    drawn inside the text area (A4 less 20 mm margins; a string that ran off the page was
+    the complaint), the budgets and the references present."""
     pypdf = pytest.importorskip("pypdf")
+    from reportlab.pdfbase.pdfmetrics import stringWidth
+
+    from capbench.report_pdf import MARGIN
+
     data = rep.pdf()
     assert data.startswith(b"%PDF")
     reader = pypdf.PdfReader(io.BytesIO(data))
-    # summary, figures, one page per budget (eps' and tan delta at each frequency), details
-    expected = 1 + 1 + 2 * len(extraction) + 1
-    assert len(reader.pages) == expected == len(rep.pdf_plan())
+    width, height = 595.2756, 841.8898  # A4 in points
+    outside = []
+    for n, page in enumerate(reader.pages):
+
+        def visit(text, cm, tm, font, size, n=n):
+            if not text.strip():
+                return
+            x = cm[0] * tm[4] + cm[2] * tm[5] + cm[4]
+            y = cm[1] * tm[4] + cm[3] * tm[5] + cm[5]
+            # the run's end from the font's own metrics (reportlab's standard fonts)
+            name = str((font or {}).get("/BaseFont", "/Helvetica")).lstrip("/")
+            try:
+                w = stringWidth(text.rstrip(), name, size)
+            except KeyError:  # a font reportlab has no metrics for: 0.6 em a character
+                w = 0.6 * size * len(text.rstrip())
+            end = x + w * abs(cm[0] or 1)
+            if x < MARGIN - 1 or end > width - MARGIN + 1 or not (MARGIN - 12 < y < height):
+                outside.append((n, round(x), round(end), round(y), text[:30]))
+
+        page.extract_text(visitor_text=visit)
+    assert not outside, outside[:5]
     first = reader.pages[0].extract_text()
     p = extraction[0]
     U, _k = p.budget.expanded(p=0.95)
     decimals = 1 - math.floor(math.log10(U))
     assert f"eps' at 100 Hz = {p.eps_r.n:.{decimals}f} +- {U:.{decimals}f}" in first
     assert "QF-PE-03" in first and "Caution" in first
-    budget_page = reader.pages[2].extract_text()
-    assert "Uncertainty budget: eps_r' at 100 Hz" in budget_page
-    assert "micrometer calibration" in budget_page
-    last = reader.pages[-1].extract_text()
-    assert "References" in last and "JCGM 100:2008" in last and "capbench" in last
+    text = " ".join(pg.extract_text() for pg in reader.pages)
+    assert "Uncertainty budget: eps_r' at 100 Hz" in text
+    assert "micrometer calibration" in text
+    assert "References" in text and "JCGM 100:2008" in text and "capbench" in text
 
 
 def test_write_all_forms(rep, tmp_path):
@@ -160,3 +185,36 @@ def test_readings_table_shows_the_new_columns(name, columns):
     assert len(table["rows"]) == len(m.readings)
     if m.method == "two_fluid":
         assert "cyclohexane, eps_r 2.0193" in report._inputs(m)["fluid 2"]
+
+
+def test_eps_loss_is_a_first_class_result_with_its_expanded_uncertainty():
+    """eps'' and U(eps'') in the results table and the JSON points (issue 21); U(eps'') =
+    k u(eps'') with the k of tan delta's budget, so U(eps'') / eps'' = U(tan d) / tan d to
+    first order where eps' is far better known than the loss."""
+    m = files.read_measurement(
+        Path(__file__).resolve().parents[1] / "fixtures" / "quillfield" / "qf-pe-03.toml"
+    )
+    data = report.results(m.extract(fem=False))
+    assert "eps''" in data["header"] and "U(eps'')" in data["header"]
+    p = data["points"][0]
+    assert p["U_eps_loss"] == pytest.approx(p["k_tan_delta"] * p["u_eps_loss"], rel=1e-12)
+    assert p["U_eps_loss"] / p["eps_loss"] == pytest.approx(
+        p["U_tan_delta"] / p["tan_delta"], rel=0.05
+    )
+
+
+def test_a_report_never_solves(measurement, extraction, monkeypatch):
+    """Issue 14: documents are pure functions of results. build() refuses a measurement
+    without its extraction, and with no solution it draws no field plot rather than
+    solving for one (any solve here would fail the test)."""
+    import capbench.capacitance as cc
+
+    def refuse(*a, **k):
+        raise AssertionError("report.build solved")
+
+    monkeypatch.setattr(cc, "solve", refuse)
+    with pytest.raises(cb.InputError, match="never solves"):
+        report.build(measurement=measurement)
+    rep = report.build(measurement=measurement, extraction=extraction)
+    names = [f["name"] for f in json.loads(rep.json())["figures"]]
+    assert "field" not in names and "result" in names

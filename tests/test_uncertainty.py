@@ -227,9 +227,19 @@ def test_coverage_factor_gum_table_g2(dof, k):
     assert round(U.coverage_factor(dof, 0.95), 2) == k
 
 
-def test_expanded_default_k2():
+def test_expanded_default_is_the_one_rule_95_percent_from_the_dof():
+    """One statement for one value (issue 14): the default k is the t quantile for 95 %
+    at the effective degrees of freedom (GUM G.4): 1.959964 for infinite dof (the normal
+    quantile) and 2.262157 for 9 (t table, e.g. GUM Table G.2 gives 2.26 for nu = 9);
+    an explicit k is still honoured."""
     b = U.budget(U.type_b(1.0, u=0.1, name="x"), "x")
-    assert b.expanded() == (pytest.approx(0.2), 2.0)
+    U95, k = b.expanded()
+    assert k == pytest.approx(1.959964, abs=1e-6)
+    assert U95 == pytest.approx(0.1959964, abs=1e-7)
+    a = U.budget(U.type_a([1.0, 1.1, 0.9, 1.05, 0.95, 1.02, 0.98, 1.01, 0.99, 1.0], "r"), "r")
+    assert a.dof == pytest.approx(9)
+    assert a.expanded()[1] == pytest.approx(2.262157, abs=1e-6)
+    assert b.expanded(k=2.0) == (pytest.approx(0.2), 2.0)
 
 
 def test_numerical_tolerance_jcgm101_792():

@@ -997,7 +997,30 @@ case(
     "cli",
     {"argv": ["log", "show", "99", "--log-file", "{log}"]},
     "exit 1",
-    ["no bench-log entry 99", "valid ids: 1 to 0"],
+    ["no bench-log entry 99", "the log has no entries yet"],
+)
+case(
+    "coaxial-guard-gap-without-guard-length",
+    "builder",
+    {
+        "builder": "coaxial_cell",
+        "inner_radius": "5 mm",
+        "outer_radius": "8 mm",
+        "length": "50 mm",
+        "guard_gap": "1 mm",
+    },
+    "GeometryError",
+    ["guard_gap = '1 mm' needs guard_length", "give both, or neither"],
+)
+case(
+    "fixture-file-unit-exponent-chain",
+    "fixture_text",
+    {
+        "text": 'schema = "capbench-fixture/1"\nkind = "parallel_discs"\n'
+        'radius = "25 mm**9**9**9"\ngap = "2 mm"\n'
+    },
+    "FileFormatError",
+    ["case.toml", "'25 mm**9**9**9'", "not a unit capbench reads"],
 )
 case(
     "cli-solve-budget-exceeded",
