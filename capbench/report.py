@@ -830,6 +830,8 @@ def _inputs(m: Any) -> dict:
         out["dissipation accuracy"] = f"{d.percent:g} % of reading + {d.offset:~P}"
     for name, half in m.tolerances:
         out[f"tolerance of {name}"] = f"+- {half * 1e3:.4g} mm (rectangular)"
+    if getattr(m, "leads", None) is not None and m.leads.active:
+        out["lead correction (removed from every reading)"] = m.leads.text()
     opts = dict(m.method_options)
     if "spacing_half_width" in opts:
         out["spacing scale accuracy (half-width)"] = (

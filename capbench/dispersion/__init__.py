@@ -41,6 +41,7 @@ H. Akaike, IEEE Trans. Autom. Control 19, 716 (1974); G. Schwarz, Ann. Stat. 6, 
 from .analysis import Relaxation, analyse
 from .fitting import CRITERIA, Fit, MonteCarloCheck, choose, fit, monte_carlo
 from .kk import KKCheck, kk_transform, kramers_kronig
+from .leads import LeadCorrection
 from .models import MODELS, PARAMETERS, loss_peak_frequency, parameter_names, permittivity
 from .spectrum import Spectrum
 
@@ -50,6 +51,7 @@ __all__ = (
     "PARAMETERS",
     "Fit",
     "KKCheck",
+    "LeadCorrection",
     "MonteCarloCheck",
     "Relaxation",
     "Spectrum",
