@@ -52,11 +52,19 @@ class Relaxation:
         if len(self.fits) > 1:
             d = getattr(self.fits[1], self.criterion) - getattr(b, self.criterion)
             runner = f"; next best {self.fits[1].label} by {d:.3g}"
+        limits = (
+            f" Not fixed by the data (at the limit of its range): {', '.join(b.at_bounds)}; "
+            "its value and uncertainty mean little, and a simpler model or a wider band "
+            "would say more."
+            if b.at_bounds
+            else ""
+        )
         return (
             f"Relaxation model chosen by {self.criterion.upper()}: {b.label} "
             f"(chi2/dof = {b.chi2 / max(b.dof, 1):.3g}{runner}). "
             + ", ".join(parts)
             + f" (expanded uncertainties, k = {_k95():.2f} for 95 % coverage)."
+            + limits
         )
 
     def content(self) -> dict[str, Any]:

@@ -29,6 +29,7 @@ from typing import Any
 import numpy as np
 
 from ..errors import ExtractionError, InputError
+from ..options import RELAXATION_CRITERIA
 from ..units import EPS0
 from .models import EP_EXPONENT_MAX, MODELS, PARAMETERS, parameter_names, permittivity
 from .spectrum import Spectrum
@@ -56,7 +57,7 @@ _UPPER = {
     "ep_amplitude": 12.0,
     "ep_exponent": EP_EXPONENT_MAX,
 }
-CRITERIA = ("aic", "bic")
+CRITERIA = RELAXATION_CRITERIA
 
 
 def _unpack(names: Sequence[str], x: np.ndarray) -> dict[str, float]:
@@ -329,11 +330,10 @@ def fit(
     k = len(names)
     xs = correlated_values(x, cov_x)
     params = {n: (10.0**v if n in _LOG else v) for n, v in zip(names, xs, strict=True)}
-    span = prob.hi - prob.lo
     at_bounds = tuple(
         n
-        for n, xi, lo, hi, sp in zip(names, x, prob.lo, prob.hi, span, strict=True)
-        if min(xi - lo, hi - xi) <= 1e-6 * sp
+        for n, xi, lo, hi in zip(names, x, prob.lo, prob.hi, strict=True)
+        if xi - lo <= 1e-6 * max(1.0, abs(lo)) or hi - xi <= 1e-6 * max(1.0, abs(hi))
     )
     return Fit(
         model=model,

@@ -29,15 +29,13 @@ from typing import Any
 import numpy as np
 
 from ..errors import InputError
+from ..options import RELAXATION_MODELS
 from ..units import EPS0
 
-#: the relaxation functions: name -> (alpha free, beta free)
-MODELS: dict[str, tuple[bool, bool]] = {
-    "debye": (False, False),
-    "cole-cole": (True, False),
-    "cole-davidson": (False, True),
-    "havriliak-negami": (True, True),
-}
+#: the relaxation functions: name -> (alpha free, beta free); the names are
+#: capbench.options.RELAXATION_MODELS (the command line's choices)
+_FREE = ((False, False), (True, False), (False, True), (True, True))
+MODELS: dict[str, tuple[bool, bool]] = dict(zip(RELAXATION_MODELS, _FREE, strict=True))
 
 #: what each parameter is, its unit, for tables and reports
 PARAMETERS: dict[str, tuple[str, str]] = {
