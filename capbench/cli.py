@@ -342,6 +342,12 @@ def build_parser() -> argparse.ArgumentParser:
     sp.add_argument(
         "--operator", help="who measured (default: the measurement file's [lab] operator)"
     )
+    sp.add_argument(
+        "--relaxation",
+        action="store_true",
+        help="add the relaxation model of the measurement's eps*(f) (as capbench relax "
+        "ranks it by BIC), with its figures",
+    )
     allow_outside(sp)
     log_file(sp)
     common(sp)
@@ -822,12 +828,19 @@ def _cmd_report(args, out: _Out) -> int:
         m = read_measurement(args.file, allow_outside=args.allow_outside)
         out.status(f"extracting {m.specimen_id} ({m.method})")
         res = m.extract(rtol=args.rtol)
+        rel = None
+        if args.relaxation:
+            from . import dispersion as dsp
+
+            out.status("fitting relaxation models")
+            rel = dsp.analyse(dsp.Spectrum.from_extraction(res))
         out.status("solving the fixture at the result for the field plot")
         rep = report.build(
             measurement=m,
             extraction=res,
             solution=res.solution(),
             operator=args.operator or None,
+            relaxation=rel,
         )
         if args.log:
             with _open_log(args) as log:
@@ -836,6 +849,13 @@ def _cmd_report(args, out: _Out) -> int:
                 )
     elif schema == FIXTURE_SCHEMA:
         from .capacitance import solve
+
+        if args.relaxation:
+            raise InputError(
+                f"--relaxation needs a measurement file with loss readings; "
+                f"{Path(args.file).name} is a fixture file",
+                value=args.file,
+            )
 
         fx = read_fixture(args.file)
         sol = solve(fx, rtol=args.rtol, progress=out.solve_progress())
