@@ -1041,6 +1041,20 @@ case(
     ["case.toml", "'25 mm**9**9**9'", "not a unit capbench reads"],
 )
 case(
+    "cli-relax-monte-carlo-too-few",
+    "cli",
+    {"argv": ["relax", "{measurement}", "--closed-form", "--monte-carlo", "5"]},
+    "exit 1",
+    ["draws = 5", "valid: a whole number from 20 to 100000"],
+)
+case(
+    "cli-report-relaxation-of-a-fixture",
+    "cli",
+    {"argv": ["report", "{fixture}", "--relaxation"]},
+    "exit 1",
+    ["--relaxation needs a measurement file with loss readings", "is a fixture file"],
+)
+case(
     "cli-solve-budget-exceeded",
     "cli",
     {"argv": ["solve", "{fixture}", "--rtol", "1e-8", "--max-dofs", "1000"]},
