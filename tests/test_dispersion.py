@@ -361,3 +361,14 @@ def test_analysis_content_is_plain_data():
     assert data["monte_carlo"]["draws"] >= 45
     assert "k = 1.96" in rel.statement()
     assert rel.table_rows()[0][0] == "havriliak-negami"
+
+
+def test_choose_leaves_out_models_with_more_parameters_than_values():
+    f = np.array([1e3, 1e4, 1e5])
+    e = D.permittivity(f, 3.0, 2.0, 1.6e-5)
+    u = np.full(3, 0.003)
+    s = D.Spectrum.from_values(f, e.real, -e.imag, u, u)
+    fits = D.choose(s, electrode=None)
+    assert fits and all(len(r.params) < 6 for r in fits)
+    with pytest.raises(InputError, match="measure at least 4 frequencies"):
+        D.fit(s, "havriliak-negami", conductivity=True)

@@ -369,15 +369,16 @@ def choose(
         parameter_names(m)  # refuses an unknown model
     c_opts = (False, True) if conductivity is None else (bool(conductivity),)
     e_opts = (False, True) if electrode is None else (bool(electrode),)
+    spectrum.check()
     fits = []
     for m in models:
         for c in c_opts:
             for e in e_opts:
+                if len(parameter_names(m, c, e)) >= 2 * spectrum.size:
+                    continue  # more parameters than values: left out, not refused
                 try:
                     fits.append(fit(spectrum, m, c, e))
-                except (ExtractionError, InputError) as exc:
-                    if isinstance(exc, InputError) and "frequencies" not in str(exc):
-                        raise
+                except ExtractionError:  # not determined by this spectrum: left out
                     continue
     if not fits:
         raise ExtractionError(
