@@ -55,6 +55,10 @@ class KKCheck:
     u_loss: np.ndarray | None = None
     chi2: float = float("nan")
     dof: int = 0
+    #: the DC conductivity (S/m) the consistent fit needed, and its standard uncertainty:
+    #: a loss with no eps' partner (conduction) shows here rather than in the residuals
+    conductivity: float = 0.0
+    u_conductivity: float = 0.0
 
     @property
     def consistent(self) -> bool:
@@ -83,6 +87,11 @@ class KKCheck:
         flagged = self.flagged
         if len(flagged) > 1:
             out += f"; {len(flagged)} values beyond it"
+        if self.u_conductivity > 0 and abs(self.conductivity) > 3 * self.u_conductivity:
+            out += (
+                f"; the loss includes a DC conduction of {self.conductivity:.3g} S/m "
+                f"(u = {self.u_conductivity:.2g} S/m), which has no eps' partner"
+            )
         return out
 
     def rows(self) -> list[dict[str, Any]]:
@@ -145,11 +154,16 @@ def kramers_kronig(spectrum: Spectrum, limit: float = 4.0) -> KKCheck:
     # columns scaled to unit length first: the conductivity column is ~1e10 times the others
     scale = np.linalg.norm(Aw, axis=0)
     scale[scale == 0] = 1.0
-    U, s, _ = np.linalg.svd(Aw / scale, full_matrices=False)
+    U, s, vt = np.linalg.svd(Aw / scale, full_matrices=False)
     keep = s > 1e-10 * s[0]
     Ur = U[:, keep]
     yw = W @ spectrum.values
     rw = yw - Ur @ (Ur.T @ yw)
+    # the conductivity column's coefficient and its standard uncertainty (covariance of
+    # the scaled coefficients V S^-2 V^T over the kept directions)
+    v_sigma = vt[keep, -1] / s[keep]
+    sigma = float(v_sigma @ (Ur.T @ yw)) / scale[-1]
+    u_sigma = float(np.sqrt(v_sigma @ v_sigma)) / scale[-1]
     L = np.linalg.inv(W)
     r = L @ rw
     Q = L - (L @ Ur) @ Ur.T  # r = Q y_w; cov(y_w) = I, so cov(r) = Q Q^T
@@ -165,6 +179,8 @@ def kramers_kronig(spectrum: Spectrum, limit: float = 4.0) -> KKCheck:
         u_loss=u[n:],
         chi2=float(rw @ rw),
         dof=int(2 * n - keep.sum()),
+        conductivity=sigma,
+        u_conductivity=u_sigma,
     )
 
 
