@@ -108,6 +108,7 @@ class Relaxation:
                 "max_z": float(abs(self.kk.z).max()),
                 "limit": self.kk.limit,
                 "text": self.kk.text(),
+                "conductivity": {"value": self.kk.conductivity, "u": self.kk.u_conductivity},
                 "flagged": [
                     {"part": part, "frequency": f, "z": z} for part, f, z in self.kk.flagged
                 ],
