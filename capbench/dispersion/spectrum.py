@@ -125,9 +125,18 @@ class Spectrum:
             raise InputError(f"the covariance must be {2 * n} x {2 * n}")
         if not np.all(np.isfinite(self.covariance)):
             raise InputError("the covariance holds a value that is not finite")
-        if np.any(np.diag(self.covariance) <= 0):
+        bad = np.flatnonzero(np.diag(self.covariance) <= 0)
+        if bad.size:
+            from ..units import frequency_text
+
+            i = int(bad[0])
+            part = "eps'" if i < n else "eps''"
             raise InputError(
-                "every eps' and eps'' needs a standard uncertainty above 0 to weight the fit"
+                f"{part} at {frequency_text(self.frequency[i % n])} has u = "
+                f"{math.sqrt(max(self.covariance[i, i], 0.0)):g}; every eps' and eps'' needs "
+                "a standard uncertainty above 0 to weight the fit (give the instrument's "
+                "dissipation accuracy, or repeated readings)",
+                value=float(self.covariance[i, i]),
             )
         if parameters and parameters >= 2 * n:
             raise InputError(
