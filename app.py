@@ -23,6 +23,7 @@ PAGES = [
     st.Page("bench_pages/fixture.py", title="Fixture", icon=":material/straighten:"),
     st.Page("bench_pages/solve.py", title="Field solve", icon=":material/blur_on:"),
     st.Page("bench_pages/extract.py", title="Permittivity", icon=":material/show_chart:"),
+    st.Page("bench_pages/relax.py", title="Relaxation model", icon=":material/ssid_chart:"),
     st.Page("bench_pages/guard.py", title="Guard and comparison", icon=":material/shield:"),
     st.Page("bench_pages/report.py", title="Report", icon=":material/description:"),
 ]

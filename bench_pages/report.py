@@ -23,6 +23,7 @@ guard = guard[1] if guard and guard[0] == fx else None
 comparison = st.session_state.get(state.COMPARISON)
 comparison = comparison[1] if comparison and comparison[0] == fx else None
 is_demo = state.demo_is_current(fx)
+relaxation = state.current_relaxation()
 
 st.subheader("Measurement record")
 st.caption(
@@ -55,7 +56,7 @@ if sol is None and res is None:
     st.info("Solve the field or extract eps' first; the report then holds the results.")
 
 # what the report is made of: a new result makes the prepared files stale
-sources = (fx, res, sol, guard, comparison, tuple(sorted(record.items())))
+sources = (fx, res, sol, guard, comparison, tuple(sorted(record.items())), relaxation)
 prepared = st.session_state.get(state.REPORT)
 if prepared and not all(
     (a is b) or (isinstance(a, tuple) and a == b) for a, b in zip(prepared[0], sources, strict=True)
@@ -78,6 +79,7 @@ if st.button("Prepare the report", type="primary", key="report.build"):
             solution=sol,
             guard=guard,
             comparison=comparison,
+            relaxation=relaxation,
             title=title,
             record=record,
         )

@@ -42,6 +42,7 @@ COMPARISON = "bench.comparison"
 DEMO_TITLE = "bench.demo.title"
 REPORT = "bench.report"  # (sources, {"html": str, "pdf": bytes, "json": str})
 RECORD = "bench.record"  # the measurement record the user entered: field -> text
+RELAXATION = "bench.relaxation"  # (extraction, choices, dispersion.Relaxation) or None
 DEMO = "bench.demo"  # the demo's Demo, to know when the page still holds it
 
 
@@ -87,6 +88,7 @@ def init() -> None:
         GUARD,
         COMPARISON,
         REPORT,
+        RELAXATION,
     ):
         st.session_state.setdefault(key, None)
     st.session_state.setdefault(POINT, 0)
@@ -137,6 +139,15 @@ def current_extraction() -> Any:
     if res is None or st.session_state.get(EXTRACTION_INPUTS) != extraction_inputs():
         return None
     return res
+
+
+def current_relaxation() -> Any:
+    """The kept relaxation analysis if it was fitted to the current extraction."""
+    kept = st.session_state.get(RELAXATION)
+    res = current_extraction()
+    if not kept or res is None or kept[0] is not res:
+        return None
+    return kept[2]
 
 
 def extraction_is_stale() -> bool:

@@ -125,7 +125,7 @@ def _entry_id(text: str) -> int:
 
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser of the ``capbench`` command."""
-    from .options import SOLVERS
+    from .options import RELAXATION_CRITERIA, RELAXATION_MODELS, SOLVERS
 
     p = _Parser(
         prog="capbench",
@@ -226,17 +226,46 @@ def build_parser() -> argparse.ArgumentParser:
         help="fit relaxation models to a measurement's eps*(f), with a Kramers-Kronig check",
         description="Extract eps' and eps'' at every frequency of a measurement file, then "
         "fit Debye, Cole-Cole, Cole-Davidson and Havriliak-Negami models (with and without "
-        "a DC conductivity) by generalised least squares over the spectrum's covariance; "
-        "rank them by BIC (or AIC) and test the spectrum's Kramers-Kronig consistency.",
+        "a DC conductivity, optionally an electrode-polarisation term) by generalised least "
+        "squares over the spectrum's covariance; rank them by BIC (or AIC), test the "
+        "spectrum's Kramers-Kronig consistency, and optionally cross-check the parameters' "
+        "uncertainties by Monte Carlo. A [leads] table in the file is corrected first.",
     )
     sp.add_argument("measurement", help="a capbench-measurement/1 TOML file with loss readings")
     sp.add_argument(
         "--model",
         default="auto",
-        choices=("auto", "debye", "cole-cole", "cole-davidson", "havriliak-negami"),
+        choices=("auto", *RELAXATION_MODELS),
         help="one model, or auto: every model, ranked (default)",
     )
-    sp.add_argument("--criterion", choices=("bic", "aic"), default="bic", help="ranking")
+    sp.add_argument(
+        "--criterion", choices=RELAXATION_CRITERIA, default="bic", help="ranking (default bic)"
+    )
+    sp.add_argument(
+        "--conductivity",
+        choices=("auto", "with", "without"),
+        default="auto",
+        help="DC conductivity term: try both (auto, default), always, never",
+    )
+    sp.add_argument(
+        "--electrode",
+        choices=("auto", "with", "without"),
+        default="without",
+        help="electrode-polarisation term at low frequency: try both, always, never (default)",
+    )
+    sp.add_argument(
+        "--monte-carlo",
+        type=int,
+        default=0,
+        metavar="N",
+        help="cross-check the best fit's uncertainties with N refits (20 to 100000; 0: none)",
+    )
+    sp.add_argument("--seed", type=int, help="seed of the Monte Carlo check (repeatable runs)")
+    sp.add_argument(
+        "--plot",
+        metavar="STEM",
+        help="write STEM-spectrum.png, STEM-arc.png and STEM-residuals.png",
+    )
     sp.add_argument(
         "--closed-form", action="store_true", help="the parallel-plate formula only (no FEM)"
     )
@@ -312,6 +341,12 @@ def build_parser() -> argparse.ArgumentParser:
     sp.add_argument("--log", action="store_true", help="record the result in the bench log")
     sp.add_argument(
         "--operator", help="who measured (default: the measurement file's [lab] operator)"
+    )
+    sp.add_argument(
+        "--relaxation",
+        action="store_true",
+        help="add the relaxation model of the measurement's eps*(f) (as capbench relax "
+        "ranks it by BIC), with its figures",
     )
     allow_outside(sp)
     log_file(sp)
@@ -469,46 +504,54 @@ def _cmd_relax(args, out: _Out) -> int:
     out.status(f"extracting {m.specimen_id} ({m.method}, {len(m.frequencies)} frequencies)")
     res = m.extract(rtol=args.rtol, fem=not args.closed_form)
     spectrum = dsp.Spectrum.from_extraction(res)
-    if args.model == "auto":
-        fits = dsp.choose(spectrum, criterion=args.criterion)
-    else:
-        fits = [dsp.fit(spectrum, args.model, c) for c in (False, True)]
-        fits.sort(key=lambda r: getattr(r, args.criterion))
-    kk = dsp.kramers_kronig(spectrum) if spectrum.frequency.size >= 5 else None
+    out.status("fitting relaxation models")
+    terms = {"auto": None, "with": True, "without": False}
+    rel = dsp.analyse(
+        spectrum,
+        args.model,
+        conductivity=terms[args.conductivity],
+        electrode=terms[args.electrode],
+        criterion=args.criterion,
+        monte_carlo_draws=args.monte_carlo,
+        seed=args.seed,
+    )
+    plots = _relaxation_plots(rel, args.plot) if args.plot else []
     if out.as_json:
         out.json(
             {
                 "specimen": m.specimen_id,
                 "method": res.method,
-                "criterion": args.criterion,
-                "fits": [
-                    {
-                        "model": r.model,
-                        "conductivity": r.conductivity,
-                        "chi2": r.chi2,
-                        "dof": r.dof,
-                        "aic": r.aic,
-                        "bic": r.bic,
-                        "params": {
-                            k: {"value": v.nominal_value, "u": v.std_dev}
-                            for k, v in r.params.items()
-                        },
-                    }
-                    for r in fits
-                ],
-                "kramers_kronig": None
-                if kk is None
-                else {"consistent": kk.consistent, "max_z": float(max(abs(kk.z)))},
+                "leads": None if m.leads is None else m.leads.text(),
+                **rel.content(),
+                "plots": plots,
             }
         )
         return EXIT_OK
     out.line(f"specimen {m.specimen_id}: {len(res.points)} frequencies, {res.method}")
-    out.line(f"models ranked by {args.criterion.upper()} (best first; u = standard uncertainty):")
-    for r in fits:
-        out.line(r.table())
-    out.line(kk.text() if kk else "Kramers-Kronig check: needs at least 5 frequencies")
+    if m.leads is not None and m.leads.active:
+        out.line(m.leads.text())
+    out.line(rel.text())
+    for path in plots:
+        out.line(f"wrote {path}")
     out.line(CAUTION_LINE)
     return EXIT_OK
+
+
+def _relaxation_plots(rel: Any, stem: str) -> list[str]:
+    """The relaxation figures as STEM-<name>.png (regular files only, written whole)."""
+    from .dispersion.figures import FIGURES
+    from .files import _atomic_write
+
+    paths = []
+    for name, _caption, func in FIGURES:
+        fig = func(rel)
+        buf = io.BytesIO()
+        fig.savefig(buf, format="png", dpi=110)
+        fig.clear()
+        path = Path(f"{stem}-{name.removeprefix('relaxation-')}.png")
+        _atomic_write(path, buf.getvalue())
+        paths.append(str(path))
+    return paths
 
 
 def _fluid_caution(m: Any) -> str:
@@ -787,12 +830,19 @@ def _cmd_report(args, out: _Out) -> int:
         m = read_measurement(args.file, allow_outside=args.allow_outside)
         out.status(f"extracting {m.specimen_id} ({m.method})")
         res = m.extract(rtol=args.rtol)
+        rel = None
+        if args.relaxation:
+            from . import dispersion as dsp
+
+            out.status("fitting relaxation models")
+            rel = dsp.analyse(dsp.Spectrum.from_extraction(res))
         out.status("solving the fixture at the result for the field plot")
         rep = report.build(
             measurement=m,
             extraction=res,
             solution=res.solution(),
             operator=args.operator or None,
+            relaxation=rel,
         )
         if args.log:
             with _open_log(args) as log:
@@ -801,6 +851,13 @@ def _cmd_report(args, out: _Out) -> int:
                 )
     elif schema == FIXTURE_SCHEMA:
         from .capacitance import solve
+
+        if args.relaxation:
+            raise InputError(
+                f"--relaxation needs a measurement file with loss readings; "
+                f"{Path(args.file).name} is a fixture file",
+                value=args.file,
+            )
 
         fx = read_fixture(args.file)
         sol = solve(fx, rtol=args.rtol, progress=out.solve_progress())

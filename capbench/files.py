@@ -1390,6 +1390,8 @@ class Measurement:
     method_options: tuple[tuple[str, Any], ...] = ()
     readings_file: str = ""
     text: str = field(default="", repr=False)
+    #: the [leads] table: a capbench.dispersion.LeadCorrection, or None
+    leads: Any = None
 
     @property
     def frequencies(self) -> tuple[float, ...]:
@@ -1518,6 +1520,8 @@ class Measurement:
             ]
         else:
             groups = [self._group(self.at(f), f"{f:g} Hz") for f in self.frequencies]
+        if self.leads is not None and self.leads.active:
+            self._correct_leads(groups)
 
         def column(key: str, fluid: int | None = None) -> list[Any] | None:
             """One input per frequency, or None when some frequency lacks it."""
@@ -1577,6 +1581,30 @@ class Measurement:
             kw["stray"] = opts["stray"]
         return kw
 
+    def _correct_leads(self, groups: list[dict[Any, Any]]) -> None:
+        """Remove the leads' series impedance and stray admittance ([leads]) from every
+        reading, in place, with one set of lead inputs shared by all frequencies (see
+        :class:`capbench.dispersion.LeadCorrection`)."""
+        from .units import frequency_text
+
+        lead_inputs = self.leads.inputs()
+        for f, g in zip(self.frequencies, groups, strict=True):
+            for part in g.values() if self.method == "two_fluid" else (g,):
+                for c_key, d_key in (
+                    ("capacitance", "dissipation"),
+                    ("empty_capacitance", "empty_dissipation"),
+                ):
+                    if c_key in part:
+                        part[c_key], d = self.leads.correct(
+                            f,
+                            part[c_key],
+                            part.get(d_key),
+                            inputs=lead_inputs,
+                            where=f"{self.path.name}, {frequency_text(f)}",
+                        )
+                        if d is not None:
+                            part[d_key] = d
+
     def extract(self, rtol: float = 1e-6, fem: bool = True):
         """Run the file's method on its readings with the uncertain inputs of
         :meth:`inputs`; returns an :class:`~capbench.extract.Extraction`."""
@@ -1595,6 +1623,7 @@ _MEASUREMENT_TABLES = {
     "instrument",
     "conditions",
     "method",
+    "leads",
 }
 
 
@@ -1633,6 +1662,10 @@ def read_measurement(
         [tolerances]  half-widths (rectangular) of fixture dimensions, e.g. electrode_radius
         [instrument]  name, capacitance_accuracy, dissipation_accuracy ("x % of reading + y")
         [conditions]  temperature, temperature_uncertainty
+        [leads]       optional: inductance and resistance of the leads (short reading),
+                      open_capacitance and open_conductance (open reading), each with
+                      its standard uncertainty ``<key>_uncertainty``; removed from every
+                      reading before extraction (capbench.dispersion.LeadCorrection)
         [method]      name (contacting, air_gap, liquid, micrometer, two_fluid), readings
                       (CSV file, relative to this file), and the method's options: stray
                       (capacitance; contacting, air_gap, liquid), spacing (air_gap),
@@ -1755,6 +1788,7 @@ def read_measurement(
     temperature_u = _kelvin(cond, "temperature_uncertainty")
     if method == "two_fluid":
         _check_fluids(meth, temperature)
+    leads = _leads(top.table("leads", required=False))
     readings_name = meth.text("readings")
     readings: tuple[Reading, ...] = ()
     if with_readings:
@@ -1783,7 +1817,38 @@ def read_measurement(
         method_options=options,
         readings_file=readings_name,
         text=text,
+        leads=leads,
     )
+
+
+#: the [leads] table's keys: value key -> kind of quantity (each also "<key>_uncertainty")
+_LEAD_KEYS = {
+    "inductance": "inductance",
+    "resistance": "resistance",
+    "open_capacitance": "capacitance",
+    "open_conductance": "conductance",
+}
+
+
+def _leads(table: _Table) -> Any:
+    """The [leads] table as a LeadCorrection (None when absent or empty)."""
+    if not table.data:
+        return None
+    from .dispersion.leads import LeadCorrection, check_value
+
+    valid = sorted([*_LEAD_KEYS, *(f"{k}_uncertainty" for k in _LEAD_KEYS)])
+    values: dict[str, float] = {}
+    for key in table.data:
+        base = key.removesuffix("_uncertainty")
+        if key not in valid:
+            raise table.error(key, f"is not a lead value; valid: {valid}", value=key)
+        v = table.quantity(key, _LEAD_KEYS[base])
+        try:
+            check_value(v, _LEAD_KEYS[base], key)
+        except CapbenchError as exc:
+            raise table.error(key, f"= {table.get(key)!r}: {exc}", value=v) from None
+        values[f"u_{base}" if key != base else base] = v
+    return LeadCorrection.from_values(**values)
 
 
 def _in_range(table: _Table, key: str, value: float, what: str) -> float:

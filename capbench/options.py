@@ -4,3 +4,8 @@ scikit-fem. validate checks values against these."""
 
 #: how a solve's refined levels may be solved (see capbench.field.solve_unit_drives)
 SOLVERS = ("auto", "direct", "multigrid")
+
+#: the relaxation functions of capbench.dispersion (Havriliak-Negami and its special
+#: cases), and how fits of them are ranked
+RELAXATION_MODELS = ("debye", "cole-cole", "cole-davidson", "havriliak-negami")
+RELAXATION_CRITERIA = ("bic", "aic")

@@ -50,6 +50,12 @@ REFERENCES = {
     "iec": "IEC 62631-2-1, Dielectric and resistive properties of solid insulating "
     "materials - Relative permittivity and dissipation factor - Technical frequencies.",
     "codata": "CODATA 2022 recommended values: vacuum permittivity eps0 = 8.8541878188e-12 F/m.",
+    "relax": "Relaxation functions: P. Debye, Polar Molecules (1929); K. S. Cole and R. H. "
+    "Cole, J. Chem. Phys. 9, 341 (1941); D. W. Davidson and R. H. Cole, J. Chem. Phys. 19, "
+    "1484 (1951); S. Havriliak and S. Negami, Polymer 8, 161 (1967). Model choice: H. Akaike, "
+    "IEEE Trans. Autom. Control 19, 716 (1974); G. Schwarz, Ann. Stat. 6, 461 (1978).",
+    "kk": "B. A. Boukamp, A linear Kronig-Kramers transform test for immittance data "
+    "validation, J. Electrochem. Soc. 142, 1885 (1995).",
     "fem": "capbench field engine: axisymmetric or planar finite elements of degree 3-4 "
     "on graded meshes with an exactly mapped exterior; error-controlled terminal "
     "capacitance (see the capbench README and DEVELOPERS.md).",
@@ -159,6 +165,8 @@ class Report:
             lines = [c["results"]["statement"], ""]
             lines += _columns(c["results"]["header"], c["results"]["rows"])
             out.append(("Result", lines))
+        if c.get("relaxation"):
+            out.append(("Relaxation model", _relaxation_lines(c["relaxation"])))
         if c.get("solution"):
             s = c["solution"]
             out.append(("Field solution", [f"{k}: {v}" for k, v in s.items()]))
@@ -214,6 +222,15 @@ class Report:
                 "<h2>Result</h2>",
                 f'<p class="result">{e(r["statement"])}</p>',
                 _html_table(r["header"], r["rows"], "results"),
+            ]
+        if c.get("relaxation"):
+            r = c["relaxation"]
+            parts += [
+                "<h2>Relaxation model</h2>",
+                f'<p class="result">{e(r["statement"])}</p>',
+                _html_table(r["parameter_table"]["header"], r["parameter_table"]["rows"], "relax"),
+                _html_table(r["ranking_table"]["header"], r["ranking_table"]["rows"], "relax"),
+                *(f"<p>{e(t)}</p>" for t in r["checks"]),
             ]
         if c.get("solution"):
             parts += ["<h2>Field solution</h2>", _html_kv(c["solution"])]
@@ -345,6 +362,16 @@ class Report:
                 raise InputError(f"report format {fmt!r}; valid: html, pdf, json", value=fmt)
             out.append(str(path))
         return out
+
+
+def _relaxation_lines(r: Mapping[str, Any]) -> list[str]:
+    lines = [*_wrap(r["statement"]), ""]
+    lines += _columns(r["parameter_table"]["header"], r["parameter_table"]["rows"])
+    lines.append("")
+    lines += _columns(r["ranking_table"]["header"], r["ranking_table"]["rows"])
+    for t in r["checks"]:
+        lines += ["", *_wrap(t)]
+    return lines
 
 
 def _b64(data: bytes) -> str:
@@ -483,6 +510,7 @@ def build(
     measurement: Any = None,
     guard: Any = None,
     comparison: Any = None,
+    relaxation: Any = None,
     title: str | None = None,
     lab: str | None = None,
     operator: str | None = None,
@@ -512,6 +540,9 @@ def build(
         A guard-ring check to include.
     comparison : Comparison, optional
         A measured-against-ideal breakdown to include.
+    relaxation : capbench.dispersion.Relaxation, optional
+        A relaxation analysis of the extraction's spectrum (:func:`capbench.dispersion.analyse`):
+        the chosen model, its parameters, the ranking, the Kramers-Kronig check, figures.
     record : mapping of str to str, optional
         The measurement record as entered on the page (keys ``lab``, ``bench``,
         ``operator``, ``specimen``, ``instrument``, ``date of measurement``); a value
@@ -649,6 +680,14 @@ def build(
         content["comparison"] = {"text": comparison.text().splitlines()}
         method += f" Unguarded edge correction: {EDGE_CAPACITANCE_SOURCE}."
         refs = [r for r in refs if r != "d150"] + ["d150"]
+    if relaxation is not None:
+        content["relaxation"] = _relaxation(relaxation)
+        method += (
+            " Relaxation model: generalised least squares over the spectrum's full "
+            f"covariance, models ranked by {relaxation.criterion.upper()}; Kramers-Kronig "
+            "consistency by the linear test."
+        )
+        refs += ["relax", "kk"]
     content["method"] = method
     content["references"] = [REFERENCES[r] for r in dict.fromkeys(refs)]
 
@@ -687,7 +726,36 @@ def build(
             )
         )
         _close(fig)
+    if relaxation is not None:
+        from .dispersion.figures import FIGURES
+
+        for name, caption, func in FIGURES:
+            figures.append((name, caption, _png(func, relaxation)))
     return Report(content, tuple(figures))
+
+
+def _relaxation(rel: Any) -> dict:
+    """The relaxation section as plain data: the analysis's content plus its tables as
+    text rows (the same in HTML, PDF and text)."""
+    from .dispersion import Relaxation
+
+    if not isinstance(rel, Relaxation):
+        raise InputError(
+            f"relaxation = {type(rel).__name__}; give a capbench.dispersion.Relaxation "
+            "(from dispersion.analyse)",
+            value=type(rel).__name__,
+        )
+    out = rel.content()
+    out["parameter_table"] = {
+        "header": list(rel.PARAMETER_HEADER),
+        "rows": rel.parameter_rows(),
+    }
+    out["ranking_table"] = {"header": list(rel.TABLE_HEADER), "rows": rel.table_rows()}
+    out["checks"] = [
+        rel.kk.text() if rel.kk else "Kramers-Kronig check: needs at least 5 frequencies",
+        *([rel.monte_carlo.text()] if rel.monte_carlo is not None else []),
+    ]
+    return out
 
 
 def _png(func, obj) -> bytes:
@@ -838,6 +906,8 @@ def _inputs(m: Any) -> dict:
         out["dissipation accuracy"] = f"{d.percent:g} % of reading + {d.offset:~P}"
     for name, half in m.tolerances:
         out[f"tolerance of {name}"] = f"+- {half * 1e3:.4g} mm (rectangular)"
+    if getattr(m, "leads", None) is not None and m.leads.active:
+        out["lead correction (removed from every reading)"] = m.leads.text()
     opts = dict(m.method_options)
     if "spacing_half_width" in opts:
         out["spacing scale accuracy (half-width)"] = (

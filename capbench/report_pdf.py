@@ -128,6 +128,12 @@ def render(report: Any) -> bytes:
         r = c["results"]
         story += [_p("Result", st["h"]), _p(r["statement"], st["statement"])]
         story.append(_table(r["header"], r["rows"], width, st))
+    if c.get("relaxation"):
+        r = c["relaxation"]
+        story += [_p("Relaxation model", st["h"]), _p(r["statement"], st["body"])]
+        for key in ("parameter_table", "ranking_table"):
+            story += [_table(r[key]["header"], r[key]["rows"], width, st), Spacer(1, 3)]
+        story += [_p(t, st["body"]) for t in r["checks"]]
     if c.get("solution"):
         story += [_p("Field solution", st["h"])]
         story.append(

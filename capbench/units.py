@@ -55,6 +55,8 @@ _BASE_UNIT = {
     "dimensionless": "",
     "area": "m**2",
     "time": "s",
+    "inductance": "H",
+    "resistance": "ohm",
 }
 
 
@@ -69,6 +71,8 @@ _EXAMPLE = {
     "pressure": "101.325 kPa",
     "area": "500 mm**2",
     "time": "60 s",
+    "inductance": "0.2 uH",
+    "resistance": "30 mohm",
 }
 
 

@@ -24,6 +24,9 @@ time budget of a solve    0 s to 86400 s         a solve that needs more than a 
                                                  sign of a wrong geometry
 unknowns of a solve       100 to 1e8             beyond 1e8 the factorisation needs more
                                                  memory than a workstation has
+lead inductance           0 to 100 uH            test leads and fixture wiring (a few
+                                                 hundred nH per metre)
+lead resistance           0 to 100 ohm           leads and contacts; more is a fault
 ========================  =====================  =========================================
 
 Suspicious but legal input (each a :class:`CapbenchWarning`): a gap over 1000 times
@@ -55,6 +58,8 @@ LIMITS: dict[str, tuple[float, float, str]] = {
     "area": (1e-12, 100.0, "m^2"),
     "time": (0.0, 86400.0, "s"),
     "dofs": (100.0, 1e8, ""),
+    "inductance": (0.0, 1e-4, "H"),
+    "resistance": (0.0, 100.0, "ohm"),
 }
 
 _KIND = {
@@ -68,6 +73,8 @@ _KIND = {
     "area": "area",
     "time": "time",
     "dofs": "dimensionless",
+    "inductance": "inductance",
+    "resistance": "resistance",
 }
 
 _SHOWN = {
@@ -81,6 +88,8 @@ _SHOWN = {
     "area": lambda v: f"{v * 1e6:.6g} mm^2",
     "time": lambda v: f"{v:.6g} s",
     "dofs": lambda v: f"{v:.6g}",
+    "inductance": lambda v: f"{v * 1e9:.6g} nH",
+    "resistance": lambda v: f"{v:.6g} ohm",
 }
 
 _RANGE_TEXT = {
@@ -94,6 +103,8 @@ _RANGE_TEXT = {
     "area": "1 um^2 to 100 m^2",
     "time": "0 s to 86400 s (one day)",
     "dofs": "100 to 100000000",
+    "inductance": "0 nH to 100 uH",
+    "resistance": "0 ohm to 100 ohm",
 }
 
 #: the fixture may span at most this fraction of the wavelength in its dielectric before

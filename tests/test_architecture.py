@@ -84,7 +84,7 @@ def test_no_import_cycles_at_import_time():
 
 def test_no_pyplot_in_the_library():
     # figures are made with matplotlib.figure.Figure: no global state, no window (STYLE)
-    for p in PKG.glob("*.py"):
+    for p in PKG.rglob("*.py"):  # subpackages too (capbench.dispersion's figures)
         tree = ast.parse(p.read_text())
         for node in ast.walk(tree):
             if isinstance(node, (ast.Import, ast.ImportFrom)):

@@ -40,6 +40,8 @@ RANGE = {
     "area": "1 um^2 to 100 m^2",
     "time": "0 s to 86400 s",
     "dofs": "100 to 100000000",
+    "inductance": "0 nH to 100 uH",
+    "resistance": "0 ohm to 100 ohm",
 }
 ENDS = {
     # what: (value below, shown, value above, shown)
@@ -53,6 +55,8 @@ ENDS = {
     "area": ("0.999 um**2", "9.99e-07 mm^2", "100.1 m**2", "1.001e+08 mm^2"),
     "time": ("-1 s", "-1 s", "86401 s", "86401 s"),
     "dofs": (99, "99", 100_010_000, "1.0001e+08"),
+    "inductance": ("-1 nH", "-1 nH", "100.1 uH", "100100 nH"),
+    "resistance": ("-0.001 ohm", "-0.001 ohm", "100.1 ohm", "100.1 ohm"),
 }
 for what, (lo, lo_shown, hi, hi_shown) in ENDS.items():
     for end, value, shown in (("below", lo, lo_shown), ("above", hi, hi_shown)):
@@ -825,6 +829,20 @@ case(
     ["case.toml, line 41", "'=1+1'", "e.g. '0.05 % of reading + 0.002 pF'"],
 )
 case(
+    "measurement-lead-inductance-above",
+    MEAS,
+    {"replace": [["[method]", '[leads]\ninductance = "2 mH"\n\n[method]']]},
+    "FileFormatError",
+    ["case.toml, line 49", "[leads] inductance", "'2 mH'", "0 nH to 100 uH"],
+)
+case(
+    "measurement-lead-unknown-key",
+    MEAS,
+    {"replace": [["[method]", '[leads]\ncapacitance = "1 pF"\n\n[method]']]},
+    "FileFormatError",
+    ["case.toml, line 49", "[leads] capacitance", "valid: ['inductance',"],
+)
+case(
     "measurement-readings-not-csv",
     MEAS,
     {"replace": [['readings = "qf-pe-03_readings.csv"', 'readings = "run.py"']]},
@@ -1021,6 +1039,20 @@ case(
     },
     "FileFormatError",
     ["case.toml", "'25 mm**9**9**9'", "not a unit capbench reads"],
+)
+case(
+    "cli-relax-monte-carlo-too-few",
+    "cli",
+    {"argv": ["relax", "{measurement}", "--closed-form", "--monte-carlo", "5"]},
+    "exit 1",
+    ["draws = 5", "valid: a whole number from 20 to 100000"],
+)
+case(
+    "cli-report-relaxation-of-a-fixture",
+    "cli",
+    {"argv": ["report", "{fixture}", "--relaxation"]},
+    "exit 1",
+    ["--relaxation needs a measurement file with loss readings", "is a fixture file"],
 )
 case(
     "cli-solve-budget-exceeded",
