@@ -1,6 +1,8 @@
 """Caches that two page sessions (two threads) may share safely.
 
-Meshes and assemblies are reused across solves of the same geometry; the page serves
+Meshes and assemblies are reused across solves of the same geometry, and whole solutions
+across solves of the same fixture at the same tolerance (an extraction repeated on the
+page, a report after the page's result, a test repeating the demo); the page serves
 several sessions from threads of one process, so every cache here holds a lock around
 each lookup, insertion and eviction (an unlocked check-then-move could raise KeyError
 when another session evicted the entry in between) and builds a missing entry at most
@@ -52,6 +54,24 @@ class Cache:
                 self._data.popitem(last=False)
             return value
 
+    def get(self, key: Hashable) -> Any | None:
+        """The entry for ``key``, or None; for results too slow to build under the lock
+        (a solve), which the caller builds unlocked and hands to :meth:`put`."""
+        with self._lock:
+            if key not in self._data:
+                self.misses += 1
+                return None
+            self._data.move_to_end(key)
+            self.hits += 1
+            return self._data[key]
+
+    def put(self, key: Hashable, value: Any) -> None:
+        with self._lock:
+            self._data[key] = value
+            self._data.move_to_end(key)
+            while len(self._data) > self.size:
+                self._data.popitem(last=False)
+
     def clear(self) -> None:
         with self._lock:
             self._data.clear()
@@ -67,7 +87,7 @@ class Cache:
 
 
 def clear_caches() -> None:
-    """Empty every cache capbench keeps in this process (meshes, assemblies): the next
+    """Empty every cache capbench keeps in this process (meshes, assemblies, solutions): the next
     solve starts cold. Safe to call while other threads solve."""
     for cache in _ALL:
         cache.clear()

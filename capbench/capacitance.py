@@ -332,6 +332,11 @@ def _mesh_key(g: Geometry) -> tuple:
 MESHES = Cache("meshes", 32)
 #: assembled systems by the same key and element degree (the chain to level 3 fits in 6)
 ASSEMBLIES = Cache("assemblies", 6)
+#: finished solutions by fixture, tolerance, mesh options and solver: the same question
+#: gets the same answer without solving again (a solve is deterministic)
+SOLUTIONS = Cache("solutions", 64)
+#: solutions larger than this many unknowns are not kept (their fields are large)
+SOLUTION_KEEP_DOFS = 500_000
 
 
 def base_mesh(
@@ -451,6 +456,12 @@ def solve(
         )
     time_budget, max_dofs = validate.solver_budget(time_budget, max_dofs)
     validate.solver(solver)
+    memo_key = (fixture, float(rtol), options, solver)
+    kept = SOLUTIONS.get(memo_key)
+    if kept is not None:
+        if progress:
+            progress(1.0, "done")
+        return kept
     t_start = time.perf_counter()
     g = fixture.geometry
     names = g.conductor_names
@@ -534,7 +545,10 @@ def solve(
         )
     if progress:
         progress(1.0, "done")
-    return _finish(fixture, names, grounded, rungs, last_fs, t_start)
+    sol = _finish(fixture, names, grounded, rungs, last_fs, t_start)
+    if sol.rungs[-1].n_dofs <= SOLUTION_KEEP_DOFS:
+        SOLUTIONS.put(memo_key, sol)
+    return sol
 
 
 def _finish(fixture, names, grounded, rungs, fs, t_start) -> Solution:

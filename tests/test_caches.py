@@ -56,6 +56,42 @@ def test_clear_caches_empties_the_solver_caches():
     first = cb.solve(fx, rtol=1e-4)
     assert len(cc.MESHES) > 0 and len(cc.ASSEMBLIES) > 0
     cb.clear_caches()
-    assert len(cc.MESHES) == 0 and len(cc.ASSEMBLIES) == 0
+    assert len(cc.MESHES) == 0 and len(cc.ASSEMBLIES) == 0 and len(cc.SOLUTIONS) == 0
     again = cb.solve(fx, rtol=1e-4)
+    assert again is not first  # solved again, not the kept answer
     assert again.terminal == first.terminal  # a cold solve gives the same number
+
+
+def test_the_same_question_is_answered_without_solving_again():
+    fx = cb.parallel_discs(radius="12.5 mm", gap="0.9 mm")
+    first = cb.solve(fx, rtol=1e-4)
+    calls = []
+    assert cb.solve(fx, rtol=1e-4, progress=lambda f, m: calls.append(f)) is first
+    assert calls == [1.0]  # a progress bar still completes
+    # another tolerance, another permittivity or another size is another question
+    assert cb.solve(fx, rtol=1e-5) is not first
+    other = cb.parallel_discs(radius="12.5 mm", gap="0.9 mm", medium_eps_r=2.0)
+    assert cb.solve(other, rtol=1e-4).terminal != first.terminal
+    bigger = cb.parallel_discs(radius="12.6 mm", gap="0.9 mm")
+    assert cb.solve(bigger, rtol=1e-4).terminal != first.terminal
+
+
+def test_a_memo_hit_does_not_block_other_threads_while_one_solves():
+    """The solution memo is consulted and filled under its lock, but the solve itself
+    runs unlocked: a second session asking for another fixture is not held up."""
+    slow = cb.parallel_discs(radius="14 mm", gap="0.7 mm")
+    quick = cb.parallel_discs(radius="9 mm", gap="2 mm")
+    cb.solve(quick, rtol=1e-3)
+    done = {}
+
+    def ask_quick():
+        t0 = time.perf_counter()
+        cb.solve(quick, rtol=1e-3)
+        done["quick"] = time.perf_counter() - t0
+
+    t = threading.Thread(target=lambda: cb.solve(slow, rtol=1e-7))
+    t.start()
+    time.sleep(0.05)
+    ask_quick()
+    t.join()
+    assert done["quick"] < 0.5
